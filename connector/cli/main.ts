@@ -1,0 +1,8 @@
+#!/usr/bin/env node
+import { registerCheck } from './commands/check.js';
+import { processContext, runCli } from './program.js';
+
+// Each command lives in commands/<name>.ts; adding one is an import and an entry here.
+const commands = [registerCheck];
+
+process.exitCode = await runCli(process.argv, commands, processContext());
