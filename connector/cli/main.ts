@@ -1,8 +1,9 @@
 #!/usr/bin/env node
 import { registerCheck } from './commands/check.js';
+import { registerInspect } from './commands/inspect.js';
 import { processContext, runCli } from './program.js';
 
 // Each command lives in commands/<name>.ts; adding one is an import and an entry here.
-const commands = [registerCheck];
+const commands = [registerCheck, registerInspect];
 
 process.exitCode = await runCli(process.argv, commands, processContext());

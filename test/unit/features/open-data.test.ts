@@ -3,9 +3,9 @@ import avro from 'avsc';
 import { describe, expect, it } from 'vitest';
 import { FeatureCodec } from '../../../model/features/index.js';
 import { createPrng } from '../../../model/random.js';
+import { seattleWeatherRows, seattleWeatherSchema, seattleWeatherType } from '../../support/open-data/seattle-weather.js';
 
 const dataFile = (name: string): URL => new URL(`../../../node_modules/vega-datasets/data/${name}`, import.meta.url);
-const DAY_MS = 86_400_000;
 
 /** Fields of `actual` that differ from `expected`: numbers beyond 1e-9 relative, anything else not identical. */
 function differingFields(actual: Record<string, unknown>, expected: Record<string, unknown>): string[] {
@@ -49,36 +49,11 @@ function roundTripEveryRow(codec: FeatureCodec, type: avro.Type, records: readon
   expect(problems).toEqual([]);
 }
 
-// Daily weather in Seattle 2012–2015 from NOAA National Climatic Data Center daily records, as shipped
-// by the vega-datasets npm package (data/seattle-weather.csv, U.S. Government work).
+// Daily weather in Seattle 2012–2015 (NOAA daily records via vega-datasets; see test/support/open-data).
 describe('open data: Seattle daily weather (NOAA, via vega-datasets)', () => {
-  const weatherSchema = {
-    type: 'record',
-    name: 'DailyWeather',
-    namespace: 'test.raretide.opendata',
-    fields: [
-      { name: 'date', type: { type: 'int', logicalType: 'date' } },
-      { name: 'precipitation', type: 'double' },
-      { name: 'temp_max', type: 'double' },
-      { name: 'temp_min', type: 'double' },
-      { name: 'wind', type: 'double' },
-      { name: 'weather', type: { type: 'enum', name: 'Weather', symbols: ['drizzle', 'rain', 'sun', 'snow', 'fog'] } },
-    ],
-  };
-  const type = avro.Type.forSchema(weatherSchema as avro.Schema);
-  const lines = readFileSync(dataFile('seattle-weather.csv'), 'utf8').trim().split('\n');
-  const rows = lines.slice(1).map((line) => {
-    const [date, precipitation, tempMax, tempMin, wind, weather] = line.split(',');
-    const [year, month, day] = date!.split('-').map(Number);
-    return {
-      date: Date.UTC(year!, month! - 1, day!) / DAY_MS,
-      precipitation: Number(precipitation),
-      temp_max: Number(tempMax),
-      temp_min: Number(tempMin),
-      wind: Number(wind),
-      weather: weather!,
-    };
-  });
+  const weatherSchema = seattleWeatherSchema;
+  const type = seattleWeatherType;
+  const rows = seattleWeatherRows();
   const records = throughAvro(type, rows);
   const codec = FeatureCodec.fromSample(weatherSchema, records, { labelPath: 'weather' });
 
