@@ -21,14 +21,14 @@ export const seattleWeatherSchema = {
   ],
 } as const;
 
-export interface WeatherDay {
+export type WeatherDay = {
   readonly date: number;
   readonly precipitation: number;
   readonly temp_max: number;
   readonly temp_min: number;
   readonly wind: number;
   readonly weather: string;
-}
+};
 
 /** Every row of the CSV as a record of `seattleWeatherSchema` (dates as days since the epoch). */
 export function seattleWeatherRows(): WeatherDay[] {
