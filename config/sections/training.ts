@@ -1,14 +1,18 @@
 import * as z from 'zod';
 import { positiveInt, seed } from './common.js';
 
-/** Hyper-parameters of the conditional VAE; the defaults suit tables of a few dozen fields. */
+/**
+ * Hyper-parameters of the conditional VAE. Keys and defaults are those of the model's
+ * `VaeHyperParameters` (model/vae/hyperparameters.ts, where the defaults were measured), so `fit`
+ * passes this section through unchanged; a test checks the two agree.
+ */
 export const trainingSection = z
   .object({
     /**
      * Dimensions of the latent code z.
      * @default 8
      */
-    latentSize: positiveInt().default(8).meta({ description: 'Dimensions of the latent code z.' }),
+    latent: positiveInt().default(8).meta({ description: 'Dimensions of the latent code z.' }),
     /**
      * Widths of the hidden layers of the encoder (the decoder mirrors them).
      * @default [128, 128]
@@ -20,14 +24,15 @@ export const trainingSection = z
       .meta({ description: 'Widths of the encoder hidden layers (the decoder mirrors them).' }),
     /**
      * Most passes over the training data (early stopping may end sooner).
-     * @default 60
+     * @default 100
      */
-    epochs: positiveInt().default(60).meta({ description: 'Most passes over the training data (early stopping may end sooner).' }),
+    epochs: positiveInt().default(100).meta({ description: 'Most passes over the training data (early stopping may end sooner).' }),
     /**
-     * Records per minibatch (class-balanced).
-     * @default 256
+     * Records per minibatch (class-balanced). Small data sets learn better with smaller batches
+     * (more steps per epoch), e.g. 128 for a few thousand records.
+     * @default 512
      */
-    batchSize: positiveInt().default(256).meta({ description: 'Records per class-balanced minibatch.' }),
+    batchSize: positiveInt().default(512).meta({ description: 'Records per class-balanced minibatch (smaller for small data sets).' }),
     /**
      * Weight of the KL term in the loss (negative ELBO).
      * @default 1
@@ -37,27 +42,38 @@ export const trainingSection = z
      * Epochs over which the KL weight ramps linearly from 0 to `beta`.
      * @default 10
      */
-    klWarmupEpochs: z.int().min(0).default(10).meta({ description: 'Epochs over which the KL weight ramps from 0 to `beta`.' }),
+    warmupEpochs: z.int().min(0).default(10).meta({ description: 'Epochs over which the KL weight ramps from 0 to `beta`.' }),
     /**
      * Adam learning rate.
      * @default 0.002
      */
-    learningRate: z.number().gt(0).default(0.002).meta({ description: 'Adam learning rate.' }),
+    learningRate: z.number().gt(0).max(1).default(0.002).meta({ description: 'Adam learning rate.' }),
     /**
-     * Share of records held out to measure validation loss for early stopping.
+     * How minibatches weight classes: class c is drawn with probability ∝ count_c^classTempering;
+     * 0 draws every class equally often, 1 at its natural frequency.
+     * @default 0
+     */
+    classTempering: z
+      .number()
+      .min(0)
+      .max(1)
+      .default(0)
+      .meta({ description: 'Class c is drawn into minibatches ∝ count^classTempering: 0 balanced, 1 natural.' }),
+    /**
+     * Share of each class held out to measure validation loss for early stopping.
      * @default 0.1
      */
-    validationShare: z
+    validationFraction: z
       .number()
-      .gt(0)
-      .lt(1)
+      .min(0)
+      .max(0.9)
       .default(0.1)
-      .meta({ description: 'Share of records held out for the validation loss that drives early stopping.' }),
+      .meta({ description: 'Share of each class held out for the validation loss that drives early stopping.' }),
     /**
-     * Epochs without a better validation loss before training stops.
-     * @default 8
+     * Epochs without a better validation loss before training stops (the best weights are kept).
+     * @default 10
      */
-    patience: positiveInt().default(8).meta({ description: 'Epochs without a better validation loss before training stops.' }),
+    patience: positiveInt().default(10).meta({ description: 'Epochs without a better validation loss before training stops.' }),
     /**
      * Seed of weight initialisation, shuffling and the validation split.
      * @default 1

@@ -11,6 +11,11 @@ export interface CliContext {
   readonly stdout: (text: string) => void;
   /** Writes to standard error; text carries its own newlines. */
   readonly stderr: (text: string) => void;
+  /**
+   * Width of the terminal standard error goes to, or undefined when it is not a terminal: progress is
+   * then logged line by line instead of redrawn in place.
+   */
+  readonly stderrColumns?: number;
 }
 
 /** Adds one subcommand to the program. */

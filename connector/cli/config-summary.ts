@@ -66,7 +66,7 @@ function sectionLines(config: RaretideConfig): [string, string][] {
     ['delivery', `${delivery.guarantee}, batches of ${delivery.batchSize}`],
     ['model', model === undefined ? NOT_SET : `${model.dir} (${guardText(model.privacyGuard)})`],
     ['fields', Object.keys(fields).length === 0 ? 'inferred' : `inferred, ${plural(Object.keys(fields).length, 'override')}`],
-    ['training', `latent ${training.latentSize}, hidden [${training.hidden.join(', ')}], up to ${training.epochs} epochs`],
+    ['training', `latent ${training.latent}, hidden [${training.hidden.join(', ')}], up to ${training.epochs} epochs`],
     ['metrics', metrics.enabled ? `http://${metrics.host}:${metrics.port}/metrics` : 'off'],
     ['log', `${log.level}, ${log.format}`],
   ];

@@ -1,9 +1,10 @@
 #!/usr/bin/env node
 import { registerCheck } from './commands/check.js';
+import { registerFit } from './commands/fit.js';
 import { registerInspect } from './commands/inspect.js';
 import { processContext, runCli } from './program.js';
 
 // Each command lives in commands/<name>.ts; adding one is an import and an entry here.
-const commands = [registerCheck, registerInspect];
+const commands = [registerCheck, registerInspect, registerFit];
 
 process.exitCode = await runCli(process.argv, commands, processContext());

@@ -65,5 +65,6 @@ export function processContext(): CliContext {
     env: process.env,
     stdout: (text) => process.stdout.write(text),
     stderr: (text) => process.stderr.write(text),
+    stderrColumns: process.stderr.isTTY ? process.stderr.columns : undefined,
   };
 }

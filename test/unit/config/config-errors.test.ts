@@ -52,8 +52,8 @@ const MISTAKES: readonly MistakeCase[] = [
   },
   {
     name: 'a fraction where an integer belongs',
-    text: `${VALID_YAML}training: {latentSize: 2.5}\n`,
-    says: ['training.latentSize = 2.5 (number)', 'expected an integer ≥ 1'],
+    text: `${VALID_YAML}training: {latent: 2.5}\n`,
+    says: ['training.latent = 2.5 (number)', 'expected an integer ≥ 1'],
   },
   {
     name: 'share out of range',

@@ -31,7 +31,7 @@ describe('valid configs', () => {
     expect(config.kafka).toBeUndefined();
     expect(config.source).toBeUndefined();
     expect(config.training.epochs).toBe(5);
-    expect(config.training.latentSize).toBe(8);
+    expect(config.training.latent).toBe(8);
   });
 
   it('reads JSON and YAML alike', () => {
