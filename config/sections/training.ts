@@ -28,11 +28,11 @@ export const trainingSection = z
      */
     epochs: positiveInt().default(100).meta({ description: 'Most passes over the training data (early stopping may end sooner).' }),
     /**
-     * Records per minibatch (class-balanced). Small data sets learn better with smaller batches
-     * (more steps per epoch), e.g. 128 for a few thousand records.
+     * Most records per minibatch (class-balanced). On small data sets training halves it (not below 32)
+     * until an epoch has at least 10 steps.
      * @default 512
      */
-    batchSize: positiveInt().default(512).meta({ description: 'Records per class-balanced minibatch (smaller for small data sets).' }),
+    batchSize: positiveInt().default(512).meta({ description: 'Most records per class-balanced minibatch; halved on small data sets so an epoch has ≥ 10 steps.' }),
     /**
      * Weight of the KL term in the loss (negative ELBO).
      * @default 1

@@ -30,7 +30,7 @@ export interface VaeHyperParameters {
   readonly continuousVariance: 'per-feature' | 'shared';
   /** Maximum passes over the training rows (early stopping usually ends training sooner). @default 100 */
   readonly epochs: number;
-  /** Rows per minibatch. @default 512 */
+  /** Most rows per minibatch; see `effectiveBatchSize` for small data sets. @default 512 */
   readonly batchSize: number;
   /** Adam learning rate. @default 0.002 */
   readonly learningRate: number;

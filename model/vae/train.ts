@@ -82,7 +82,8 @@ export async function trainVae(
   overrides: Partial<VaeHyperParameters> = {},
   options: TrainOptions = {},
 ): Promise<TrainedVae> {
-  const hp = resolveHyperParameters(overrides);
+  // The batch size may shrink for small data sets once the split is known (effectiveBatchSize).
+  let hp = resolveHyperParameters(overrides);
   await initBackend();
   if (data.width !== layout.width) {
     throw new UsageError(`training data has width ${data.width} but the feature layout has width ${layout.width}`);
@@ -105,6 +106,7 @@ export async function trainVae(
   const validation = prepareValidation(data, split.validation, drawWeights);
 
   const optimizer = tf.train.adam(hp.learningRate);
+  hp = { ...hp, batchSize: effectiveBatchSize(hp.batchSize, trainRowTotal) };
   const batchesPerEpoch = Math.ceil(trainRowTotal / hp.batchSize);
   const batchRows = new Int32Array(hp.batchSize);
   const epsilon = new Float32Array(hp.batchSize * hp.latent);
@@ -256,4 +258,19 @@ function countClasses(classes: Int32Array, classCount: number): number[] {
   const counts = new Array<number>(classCount).fill(0);
   for (const label of classes) counts[label]! += 1;
   return counts;
+}
+
+/** Fewest optimiser steps an epoch should take; below that, early stopping judges too coarse a curve. */
+const MIN_STEPS_PER_EPOCH = 10;
+const MIN_BATCH_SIZE = 32;
+
+/**
+ * The configured batch size is an upper bound: on small data sets it shrinks (by powers of two, not
+ * below 32) so an epoch has at least 10 steps. Measured on the 1,461-row Seattle weather set: batch 512
+ * gave 3 steps an epoch and stopped one seed at epoch 19 with poor rare-class decodes; 128 was stable.
+ */
+export function effectiveBatchSize(configured: number, trainRows: number): number {
+  let size = configured;
+  while (size > MIN_BATCH_SIZE && trainRows / size < MIN_STEPS_PER_EPOCH) size = Math.max(MIN_BATCH_SIZE, size >> 1);
+  return size;
 }

@@ -2,7 +2,7 @@ import * as tf from '@tensorflow/tfjs';
 import { describe, expect, it } from 'vitest';
 import { createPrng } from '../../../model/random.js';
 import { BalancedBatchSampler, classDrawWeights, stratifiedSplit } from '../../../model/vae/dataset.js';
-import { trainVae, type EpochReport } from '../../../model/vae/train.js';
+import { effectiveBatchSize, trainVae, type EpochReport } from '../../../model/vae/train.js';
 import { MIXED_LAYOUT, mixedData } from './support.js';
 
 const data = mixedData(1200, 0.05, createPrng(8));
@@ -100,5 +100,14 @@ describe('class-balanced minibatches', () => {
     expect(split.validation.map((rows) => rows.length)).toEqual([148, 1]);
     expect(split.train.map((rows) => rows.length)).toEqual([842, 9]);
     expect(new Set([...split.train.flat(), ...split.validation.flat()]).size).toBe(1000);
+  });
+});
+
+describe('effectiveBatchSize', () => {
+  it('keeps the configured size when the data gives at least 10 steps an epoch, else halves it (not below 32)', () => {
+    expect(effectiveBatchSize(512, 20_000)).toBe(512);
+    expect(effectiveBatchSize(512, 1_315)).toBe(128);
+    expect(effectiveBatchSize(512, 100)).toBe(32);
+    expect(effectiveBatchSize(16, 100)).toBe(16);
   });
 });
