@@ -19,6 +19,16 @@ export const sinkSection = z
       .boolean()
       .default(false)
       .meta({ description: 'Also copy every original record to `topic`, making it a balanced copy of the stream.' }),
+    /**
+     * Where an Avro file output carries provenance: `field` adds the optional record field
+     * `raretide_provenance` (null for originals); `sidecar` leaves the schema alone and writes one JSON
+     * line per output record to `<out>.provenance.jsonl`. Topic output always uses headers.
+     * @default field
+     */
+    provenance: z
+      .enum(['field', 'sidecar'])
+      .default('field')
+      .meta({ description: 'Avro file output: provenance as an added optional field (`field`) or in a JSON-lines sidecar (`sidecar`).' }),
     /** Topic for records that cannot be decoded, labelled or validated; the reason travels in headers. */
     deadLetterTopic: topicName().meta({
       description: 'Topic for records that cannot be decoded, labelled or validated (reason in headers).',

@@ -34,9 +34,13 @@ import { RaretideError, UsageError } from '../../config/errors.js';
 import type { PartitionBalanceState } from './balance-state.js';
 import { comparePartitions, describePartition, partitionKey, type TopicPartition } from './topic-partition.js';
 
-/** A source of uniform numbers in [0, 1); a seeded generator so replays repeat. */
+/**
+ * A source of uniform numbers in [0, 1); a seeded generator so replays repeat. It is told which record
+ * the draw is for, so a keyed source can make each record's draw depend on that record alone (and not
+ * on how partitions interleave); a plain stream may ignore it.
+ */
 export interface UniformSource {
-  uniform(): number;
+  uniform(record: BalanceRecord): number;
 }
 
 /** How counts accumulate (the same shape as the `balance.counting` config section). */
@@ -56,6 +60,8 @@ export interface BalanceOptions {
 /** One source record as the planner sees it: where it came from and its class. */
 export interface BalanceRecord extends TopicPartition {
   readonly label: string;
+  /** Where the record sits in its partition, when known; a keyed `UniformSource` draws by it. */
+  readonly offset?: bigint;
 }
 
 /** The decision for one record. */
@@ -267,7 +273,7 @@ export class BalanceController {
       wanted = this.maxPerRecord;
       if (deficit > this.maxPerRecord) add(counts.capped, record.label, weight);
     } else {
-      wanted = this.stochasticRound(deficit);
+      wanted = this.stochasticRound(deficit, record);
     }
     if (wanted === 0) return NOTHING;
     const granted = grant === undefined ? wanted : checkGrant(grant(wanted, record), wanted);
@@ -290,11 +296,11 @@ export class BalanceController {
   }
 
   /** floor(x) or floor(x)+1 with probability frac(x), so E[k] = x; draws only when the fraction is > 0. */
-  private stochasticRound(value: number): number {
+  private stochasticRound(value: number, record: BalanceRecord): number {
     const whole = Math.floor(value);
     const fraction = value - whole;
     if (fraction === 0) return whole;
-    const draw = this.random.uniform();
+    const draw = this.random.uniform(record);
     if (!(draw >= 0 && draw < 1)) {
       throw new RaretideError('balance.bad-random', `The random source returned ${draw}; expected a number in [0, 1).`);
     }

@@ -73,15 +73,38 @@ export class ContainerFileReader implements AsyncIterable<unknown> {
     return this.records();
   }
 
+  /**
+   * The records as their encoded bytes in the writer schema, one array per block, each record checked
+   * by the bounded scan but not decoded: for a consumer that decodes (and resolves) them itself, such
+   * as the pipeline core. A block at a time keeps the per-record cost of async iteration away.
+   */
+  encodedBlocks(): AsyncGenerator<Buffer[]> {
+    return this.bodies();
+  }
+
+  /** Bytes of the file read so far (header and whole blocks), for progress against the file size. */
+  get bytesRead(): number {
+    return this.cursor.offset;
+  }
+
   /** Stops reading early and releases the file. */
   close(): void {
     this.stream.destroy();
   }
 
   private async *records(): AsyncGenerator<unknown> {
+    const { readerType, resolver } = this.readerFor(this.header.writer);
+    for await (const { block, count, dataAt } of this.blocks()) yield* this.blockRecords(block, count, dataAt, readerType, resolver);
+  }
+
+  private async *bodies(): AsyncGenerator<Buffer[]> {
+    for await (const { block, count, dataAt } of this.blocks()) yield [...this.blockBodies(block, count, dataAt)];
+  }
+
+  /** Every block, checked and inflated; the file is released when the loop ends, however it ends. */
+  private async *blocks(): AsyncGenerator<{ block: Buffer; count: number; dataAt: number }> {
     const { writer, codec, syncMarker } = this.header;
     const maxBlockBytes = this.options.maxBlockBytes ?? 64 * 1024 * 1024;
-    const { readerType, resolver } = this.readerFor(writer);
     const recordMinBytes = minimumBytes(writer.type);
     const maxRecords = this.options.limits?.maxZeroByteItems ?? 65_536;
     const cursor = this.cursor;
@@ -107,37 +130,64 @@ export class ContainerFileReader implements AsyncIterable<unknown> {
         if (recordMinBytes > 0 ? count > block.length / recordMinBytes : count > maxRecords) {
           throw corruptContainer(this.file, dataAt, `block claims ${count} records but holds only ${block.length} bytes`);
         }
-        yield* this.blockRecords(block, count, dataAt, readerType, resolver);
+        yield { block, count, dataAt };
       }
     } finally {
       this.close();
     }
   }
 
-  private *blockRecords(block: Buffer, count: number, dataAt: number, readerType: avro.Type, resolver: AvroResolver | undefined): Generator<unknown> {
-    const inflated = this.header.codec !== 'null';
-    const where = (offset: number): number => (inflated ? dataAt : dataAt + offset);
-    const inBlock = (index: number, offset: number): string =>
-      inflated ? ` (record ${index} of the block, byte ${offset} after inflating)` : ` (record ${index} of the block)`;
+  private *blockBodies(block: Buffer, count: number, dataAt: number): Generator<Buffer> {
     let position = 0;
     for (let index = 0; index < count; index++) {
-      const scanned = scanValue(this.header.writer.type, block, position, this.options.limits);
-      if (!scanned.ok) {
-        const offset = scanned.problem.offset ?? position;
-        throw corruptContainer(this.file, where(offset), `${renderProblem(scanned.problem)}${inBlock(index, offset)}`);
-      }
+      const scanned = this.scanRecord(block, position, index, dataAt);
+      yield block.subarray(position, scanned);
+      position = scanned;
+    }
+    this.checkBlockEnd(block, position, count, dataAt);
+  }
+
+  /** End of the record at `position` by the bounded scan; a corrupt record fails naming the file offset. */
+  private scanRecord(block: Buffer, position: number, index: number, dataAt: number): number {
+    const scanned = scanValue(this.header.writer.type, block, position, this.options.limits);
+    if (scanned.ok) return scanned.value;
+    const offset = scanned.problem.offset ?? position;
+    throw corruptContainer(this.file, this.fileOffset(dataAt, offset), `${renderProblem(scanned.problem)}${this.inBlock(index, offset)}`);
+  }
+
+  private checkBlockEnd(block: Buffer, position: number, count: number, dataAt: number): void {
+    if (position !== block.length) {
+      throw corruptContainer(this.file, this.fileOffset(dataAt, position), `${block.length - position} bytes follow the block's ${count} records`);
+    }
+  }
+
+  /** A byte offset in the file; inside an inflated block only the block's start is known. */
+  private fileOffset(dataAt: number, offset: number): number {
+    return this.header.codec !== 'null' ? dataAt : dataAt + offset;
+  }
+
+  private inBlock(index: number, offset: number): string {
+    return this.header.codec !== 'null' ? ` (record ${index} of the block, byte ${offset} after inflating)` : ` (record ${index} of the block)`;
+  }
+
+  private *blockRecords(block: Buffer, count: number, dataAt: number, readerType: avro.Type, resolver: AvroResolver | undefined): Generator<unknown> {
+    let position = 0;
+    for (let index = 0; index < count; index++) {
+      const scanned = this.scanRecord(block, position, index, dataAt);
       let value: unknown;
       try {
         value = readerType.decode(block, position, resolver).value;
       } catch (cause) {
-        throw corruptContainer(this.file, where(position), `record does not decode (${(cause as Error).message})${inBlock(index, position)}`);
+        throw corruptContainer(
+          this.file,
+          this.fileOffset(dataAt, position),
+          `record does not decode (${(cause as Error).message})${this.inBlock(index, position)}`,
+        );
       }
-      position = scanned.value;
+      position = scanned;
       yield value;
     }
-    if (position !== block.length) {
-      throw corruptContainer(this.file, where(position), `${block.length - position} bytes follow the block's ${count} records`);
-    }
+    this.checkBlockEnd(block, position, count, dataAt);
   }
 
   private readerFor(writer: KnownSchema): { readerType: avro.Type; resolver: AvroResolver | undefined } {

@@ -69,8 +69,16 @@ export class ContainerFileWriter {
 
   /** Adds a record; resolves once any block it completed is written. */
   async append(record: unknown): Promise<void> {
-    if (this.finished) throw new RaretideError('avro.container-closed', `Avro container file ${this.path} is already closed; records cannot be added.`);
-    const encoded = encodeRecord(this.schema, record);
+    this.checkOpen();
+    await this.appendEncoded(encodeRecord(this.schema, record));
+  }
+
+  /**
+   * Adds a record already encoded with the file's schema (the caller vouches for the bytes: they go
+   * into the block as they are); resolves once any block it completed is written.
+   */
+  async appendEncoded(encoded: Buffer): Promise<void> {
+    this.checkOpen();
     this.pending.push(encoded);
     this.pendingBytes += encoded.length;
     if (this.pendingBytes >= this.blockSizeBytes) this.flushBlock();
@@ -99,6 +107,10 @@ export class ContainerFileWriter {
     this.pending = [];
     await this.writes.catch(() => undefined);
     await this.discard();
+  }
+
+  private checkOpen(): void {
+    if (this.finished) throw new RaretideError('avro.container-closed', `Avro container file ${this.path} is already closed; records cannot be added.`);
   }
 
   private flushBlock(): void {
