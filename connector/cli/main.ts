@@ -2,10 +2,11 @@
 import { registerCheck } from './commands/check.js';
 import { registerFit } from './commands/fit.js';
 import { registerInspect } from './commands/inspect.js';
+import { registerRegenerate } from './commands/regenerate.js';
 import { registerReplay } from './commands/replay.js';
 import { processContext, runCli } from './program.js';
 
 // Each command lives in commands/<name>.ts; adding one is an import and an entry here.
-const commands = [registerCheck, registerInspect, registerFit, registerReplay];
+const commands = [registerCheck, registerInspect, registerFit, registerReplay, registerRegenerate];
 
 process.exitCode = await runCli(process.argv, commands, processContext());

@@ -117,7 +117,7 @@ export async function runReplay(request: ReplayRequest, effects: ReplayEffects):
 }
 
 /** Records are read as the configured reader schema, else as the schema the model was fitted on. */
-async function readerSchema(readerSchemaFile: string | undefined, synthesizer: ModelSynthesizer): Promise<KnownSchema> {
+export async function readerSchema(readerSchemaFile: string | undefined, synthesizer: ModelSynthesizer): Promise<KnownSchema> {
   const { model } = synthesizer;
   const reader = readerSchemaFile === undefined ? knownSchema(model.schema, `the schema of model ${model.id}`) : await loadSchemaFile(readerSchemaFile);
   model.checkSchema(reader.fingerprint.hex, reader.source);
