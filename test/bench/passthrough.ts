@@ -6,15 +6,29 @@
  *   broker is started and stopped.)
  *
  * Produces N pump-station readings (Avro, ~190 bytes) to a source topic, then times
- *   1. node-rdkafka: consume(n) batches → async produce → commit, until every record is acked;
- *   2. kcat (if installed): `kcat -C` in a consumer group piped into `kcat -P`;
+ *   1. node-rdkafka: consume(n) batches → async produce → commit, until every record is acked, once
+ *      with a delivery report per message and once with failure reports only
+ *      (`delivery.report.only.error`, what raretide's sink uses);
+ *   2. raretide's Kafka adapters (connector/kafka): KafkaConsumerSource → KafkaProducerSink copying
+ *      each batch and checkpointing it, at-least-once and exactly-once — the worker's I/O without
+ *      the model;
+ *   3. kcat (if installed): `kcat -C` in a consumer group piped into `kcat -P`;
  * and prints records/s, MB/s and their ratio. It prints figures only; it asserts nothing.
+ *
+ * What limits node-rdkafka here (measured while building connector/kafka, see its comments): a JS
+ * delivery report per message costs ~10 µs of main-thread time and holds its queue slot until served;
+ * consume(n) costs ~13 µs of CPU per message in the binding (kcat's consumer ~0.6 µs); produce ~4 µs.
  */
+import { setImmediate as nextTurn } from 'node:timers/promises';
 import { parseArgs } from 'node:util';
 
-import Kafka from 'node-rdkafka';
+import Kafka, { type LibrdKafkaError, type Producer } from 'node-rdkafka';
 
+import { KafkaConsumerSource } from '../../connector/kafka/consumer-source.js';
+import { KafkaProducerSink } from '../../connector/kafka/producer-sink.js';
+import { shutdownKafkaAdapters } from '../../connector/kafka/shutdown.js';
 import { startLocalBroker, type LocalBroker } from '../../deploy/kafka/local-broker.js';
+import { positionsOf, readWholeTopic } from '../support/adapter-loop.js';
 import { consumeBatch } from '../support/consume-until.js';
 import { connectConsumer, connectProducer, disconnect, settle } from '../support/kafka-clients.js';
 import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
@@ -67,13 +81,27 @@ async function fillSourceTopic(brokers: string, topic: string, count: number): P
   return bytes;
 }
 
+/** librdkafka's ERR__QUEUE_FULL: `produce` refused, the local queue is full. */
+const ERR_QUEUE_FULL = -184;
+
+type ReportMode = 'every message' | 'failures only';
+
+/**
+ * Waits for room after a queue-full refusal. With a report per message the next report frees a slot;
+ * with failure reports only there is none to wait for, so a short flush does the waiting.
+ */
+async function waitForRoom(producer: Producer, reports: ReportMode): Promise<void> {
+  if (reports === 'every message') await new Promise((resolve) => producer.once('delivery-report', resolve));
+  else await new Promise((resolve) => producer.flush(5, resolve));
+}
+
 /** The plain node-rdkafka pipe: batch consume, async produce, commit after each batch. */
-async function runNodePipe(brokers: string, sourceTopic: string, sinkTopic: string): Promise<number> {
+async function runNodePipe(brokers: string, sourceTopic: string, sinkTopic: string, reports: ReportMode): Promise<number> {
   const consumer = await connectConsumer({ 'metadata.broker.list': brokers, 'group.id': uniqueName('bench-node-pipe') });
-  const producer = await connectProducer({ 'metadata.broker.list': brokers });
+  const producer = await connectProducer({ 'metadata.broker.list': brokers, 'delivery.report.only.error': reports === 'failures only' });
   let acked = 0;
   const failures: string[] = [];
-  producer.on('delivery-report', (error) => {
+  producer.on('delivery-report', (error: LibrdKafkaError | null) => {
     if (error) failures.push(error.message);
     else acked += 1;
   });
@@ -90,19 +118,68 @@ async function runNodePipe(brokers: string, sourceTopic: string, sinkTopic: stri
     }
     if (firstRecordMs === undefined && batch.length > 0) firstRecordMs = Date.now() - started;
     for (const message of batch) {
-      await produceWithBackpressure(producer, { topic: sinkTopic, value: message.value as Buffer, key: message.key, timestamp: message.timestamp });
+      for (;;) {
+        try {
+          producer.produce(sinkTopic, null, message.value, message.key, message.timestamp);
+          break;
+        } catch (error) {
+          if ((error as LibrdKafkaError).code !== ERR_QUEUE_FULL) throw error;
+          await waitForRoom(producer, reports);
+        }
+      }
     }
     forwarded += batch.length;
     if (batch.length > 0) consumer.commit();
   }
   await settle('flush of the node pipe', (done) => producer.flush(60_000, done));
+  if (reports === 'every message') await waitFor(() => acked + failures.length >= recordCount, { what: 'delivery reports of the node pipe' });
+  // Failure reports queued before the flush returned reach JS within the next turns (connector/kafka/delivery-tracker.ts).
+  else {
+    let seen: number;
+    do {
+      seen = failures.length;
+      await nextTurn();
+    } while (failures.length !== seen);
+  }
   const elapsedMs = Date.now() - started;
-  await waitFor(() => acked + failures.length >= recordCount, { what: 'delivery reports of the node pipe' });
   await disconnect(producer);
   await disconnect(consumer);
   if (failures.length > 0) throw new Error(`node pipe: ${failures.length} deliveries failed, first: ${failures[0]}`);
-  console.log(`node pipe: first batch ${firstRecordMs} ms after subscribe (group join + first fetch), included below`);
+  console.log(`node pipe (${reports}): first batch ${firstRecordMs} ms after subscribe (group join + first fetch), included below`);
   return elapsedMs;
+}
+
+/** raretide's adapters as the worker drives them: each batch copied, sent and checkpointed. */
+async function runAdapterPipe(brokers: string, sourceTopic: string, sinkTopic: string, guarantee: 'at-least-once' | 'exactly-once'): Promise<number> {
+  const kafka = { brokers, settings: {} };
+  const group = uniqueName('bench-adapters');
+  stateTopics.push(`raretide-state.${group}`);
+  const setupStarted = Date.now();
+  const source = await KafkaConsumerSource.connect({ kafka, topic: sourceTopic, group });
+  const sink = await KafkaProducerSink.create({
+    kafka, sink: { topic: sinkTopic, deadLetterTopic: sinkTopic }, delivery: { guarantee }, group, instanceId: 'bench-0', consumerGroup: source,
+  });
+  const started = Date.now();
+  console.log(`adapter pipe (${guarantee}): setup ${started - setupStarted} ms (connect, state topic, initTransactions; the group join overlaps it), not included below`);
+  let copied = 0;
+  let lastProgress = Date.now();
+  try {
+    while (copied < recordCount) {
+      const batch = await source.nextBatch(Math.min(batchSize, recordCount - copied));
+      if (batch === null || batch.length === 0) {
+        if (Date.now() - lastProgress > STALL_TIMEOUT_MS) throw new Error(`adapter pipe stalled after ${copied} of ${recordCount}`);
+        continue;
+      }
+      lastProgress = Date.now();
+      // As the plain pipe: value, key and timestamp, no added headers.
+      await sink.send(batch.map((input) => ({ route: 'output', value: input.value, key: input.key, headers: [], timestamp: input.timestamp, source: input })));
+      await sink.checkpoint({ positions: positionsOf(batch), state: [] });
+      copied += batch.length;
+    }
+    return Date.now() - started;
+  } finally {
+    await shutdownKafkaAdapters({ source, sink });
+  }
 }
 
 /** Sum of the high watermarks: how many records a sink topic holds. */
@@ -123,8 +200,11 @@ async function countRecords(brokers: string, topic: string): Promise<number> {
 
 function rateLine({ label, elapsedMs }: PipeResult, bytes: number): string {
   const seconds = elapsedMs / 1000;
-  return `${label.padEnd(28)} ${seconds.toFixed(2).padStart(7)} s ${Math.round(recordCount / seconds).toString().padStart(9)} records/s ${(bytes / 1e6 / seconds).toFixed(1).padStart(7)} MB/s`;
+  return `${label.padEnd(38)} ${seconds.toFixed(2).padStart(7)} s ${Math.round(recordCount / seconds).toString().padStart(9)} records/s ${(bytes / 1e6 / seconds).toFixed(1).padStart(7)} MB/s`;
 }
+
+/** State topics the adapter pipes' sinks create, deleted with the rest. */
+const stateTopics: string[] = [];
 
 async function main(): Promise<void> {
   let localBroker: LocalBroker | undefined;
@@ -145,10 +225,19 @@ async function main(): Promise<void> {
     const bytes = await fillSourceTopic(brokers, source, recordCount);
 
     const results: PipeResult[] = [];
-    const nodeSink = await newTopic('bench-node-sink');
-    results.push({ label: 'node-rdkafka consume→produce', elapsedMs: await runNodePipe(brokers, source, nodeSink) });
-    const nodeCount = await countRecords(brokers, nodeSink);
-    if (nodeCount !== recordCount) throw new Error(`node pipe wrote ${nodeCount} records, expected ${recordCount}`);
+    for (const reports of ['every message', 'failures only'] as const) {
+      const nodeSink = await newTopic('bench-node-sink');
+      results.push({ label: `node-rdkafka, reports: ${reports}`, elapsedMs: await runNodePipe(brokers, source, nodeSink, reports) });
+      const nodeCount = await countRecords(brokers, nodeSink);
+      if (nodeCount !== recordCount) throw new Error(`node pipe wrote ${nodeCount} records, expected ${recordCount}`);
+    }
+    for (const guarantee of ['at-least-once', 'exactly-once'] as const) {
+      const adapterSink = await newTopic('bench-adapter-sink');
+      results.push({ label: `raretide adapters, ${guarantee}`, elapsedMs: await runAdapterPipe(brokers, source, adapterSink, guarantee) });
+      // read_committed: a transactional topic's offsets include one commit marker per transaction.
+      const adapterCount = (await readWholeTopic(brokers, adapterSink, partitions)).length;
+      if (adapterCount !== recordCount) throw new Error(`adapter pipe (${guarantee}) wrote ${adapterCount} records, expected ${recordCount}`);
+    }
 
     const kcat = kcatVersion();
     if (kcat) {
@@ -158,16 +247,17 @@ async function main(): Promise<void> {
       if (kcatCount !== recordCount) throw new Error(`kcat pipe wrote ${kcatCount} records, expected ${recordCount} (a delimiter inside a record?)`);
     }
 
-    console.log(`\npass-through of ${recordCount} records, ${partitions} partitions, wall clock from subscribe to the last ack:`);
-    for (const result of results) console.log(rateLine(result, bytes));
-    const [nodeResult, kcatResult] = results;
-    if (nodeResult && kcatResult) {
-      console.log(`node-rdkafka / kcat throughput ratio: ${(kcatResult.elapsedMs / nodeResult.elapsedMs).toFixed(2)} (node-rdkafka on librdkafka ${Kafka.librdkafkaVersion}; ${kcat})`);
-    } else {
-      console.log('kcat not installed (Debian: apt-get install kcat): no C-client reference figure');
+    console.log(`\npass-through of ${recordCount} records, ${partitions} partitions, batches of ${batchSize}, wall clock from subscribe to the last ack:`);
+    const kcatResult = results.find((result) => result.label.startsWith('kcat'));
+    for (const result of results) {
+      const ratio = kcatResult === undefined || result === kcatResult ? '' : `   ${(kcatResult.elapsedMs / result.elapsedMs).toFixed(2)}× kcat`;
+      console.log(`${rateLine(result, bytes)}${ratio}`);
     }
+    console.log(kcatResult === undefined
+      ? 'kcat not installed (Debian: apt-get install kcat): no C-client reference figure'
+      : `node-rdkafka on librdkafka ${Kafka.librdkafkaVersion}; ${kcat}`);
   } finally {
-    if (topics.length > 0) await deleteTopics(brokers, topics);
+    if (topics.length > 0) await deleteTopics(brokers, [...topics, ...stateTopics]);
     await localBroker?.stop();
   }
 }
