@@ -9,6 +9,7 @@ import { fitModel, type FitResult } from '../../../model/fit.js';
 import { saveModel } from '../../../model/vae/index.js';
 import { ContainerFileReader } from '../../avro/container/container-reader.js';
 import { loadSchemaFile } from '../../avro/known-schema.js';
+import { openTopicRecords } from '../../records/topic-records.js';
 import { globalOptions, type CliContext } from '../cli-context.js';
 import { fitProgress, type ProgressStyle } from '../fit-progress.js';
 import { configOption } from '../options.js';
@@ -28,7 +29,7 @@ export function registerFit(program: Command, context: CliContext): void {
     .command('fit')
     .description('train the conditional VAE on real records and write the model directory')
     .addOption(configOption())
-    .addOption(new Option('-f, --file <avro>', 'Avro container file of real records to train on'))
+    .addOption(new Option('-f, --file <avro>', 'Avro container file of real records to train on (default: a snapshot of source.topic)'))
     .addOption(new Option('-o, --out <dir>', 'model directory to write (overrides model.dir)'))
     .addOption(new Option('--epochs <n>', 'most passes over the records (overrides training.epochs)'))
     .addOption(new Option('--seed <n>', 'training seed (overrides training.seed)'))
@@ -79,6 +80,8 @@ export function registerFit(program: Command, context: CliContext): void {
       try {
         // Written under a temporary name and renamed: a Ctrl-C now leaves no half-written model.
         const id = await saveModel(directory, fitted.bundle, { overwrite: options.overwrite === true });
+        const skipped = source.skipped();
+        if (skipped.count > 0) note(`left out ${skipped.count} records that did not decode; first: ${skipped.firstReason}`);
         if (!globalOptions(command).quiet) context.stdout(summary(id, directory, source.origin, fitted));
       } finally {
         fitted.dispose();
@@ -100,15 +103,22 @@ interface FitSource {
   readonly records: AsyncIterable<AvroRecord>;
   readonly origin: string;
   close(): void;
+  /** Payloads that did not decode and were left out (a topic may hold some), known once read. */
+  skipped(): { count: number; firstReason: string | undefined };
 }
 
 async function openSource(file: string | undefined, config: RaretideConfig): Promise<FitSource> {
   if (file === undefined) {
-    throw new UsageError(
-      config.source === undefined
-        ? 'fit needs records to train on: pass --file <avro> (an Avro container file)'
-        : `fit cannot read topic ${config.source.topic} yet: export the records to an Avro container file and pass --file <avro>`,
-    );
+    if (config.source === undefined) throw new UsageError('fit needs records to train on: pass --file <avro> (an Avro container file) or configure source and kafka to read a topic');
+    const { kafka, source } = requireSections(config, 'fit', ['kafka', 'source']);
+    const topic = await openTopicRecords(kafka, source);
+    return {
+      schema: topic.schema.json as AvroSchemaJson,
+      records: topic.records as AsyncIterable<AvroRecord>,
+      origin: `${topic.origin} (snapshot: earliest to the end offsets at start)`,
+      close: () => void topic.close(),
+      skipped: () => topic.undecodable,
+    };
   }
   const readerFile = config.source?.readerSchemaFile;
   const reader = readerFile === undefined ? undefined : await loadSchemaFile(readerFile);
@@ -118,6 +128,7 @@ async function openSource(file: string | undefined, config: RaretideConfig): Pro
     records: container as AsyncIterable<AvroRecord>,
     origin: file,
     close: () => container.close(),
+    skipped: () => ({ count: 0, firstReason: undefined }),
   };
 }
 
