@@ -45,6 +45,15 @@ export const framingSchema = z
         url: z
           .url({ protocol: /^https?$/, error: 'expected an http(s) URL' })
           .meta({ description: 'Base URL of the schema registry that resolves schema ids.', examples: ['http://127.0.0.1:8081'] }),
+        /**
+         * For writing (a sink's framing): the id under which the output schema is registered. raretide
+         * registers no schemas; it checks at start-up that this id holds the schema it writes with.
+         */
+        outputSchemaId: z
+          .int()
+          .min(0)
+          .optional()
+          .meta({ description: 'For writing: the registry id of the output schema (checked at start-up).', examples: [7] }),
       })
       .strict(),
   ])

@@ -54,11 +54,22 @@ async function outputFraming(config: FramingConfig, reader: KnownSchema, inherit
     case 'single-object':
       return new SingleObjectFraming(inherited ? [reader] : await Promise.all(config.schemaFiles.map((file) => loadSchemaFile(file))));
     case 'registry':
-      throw new UsageError(
-        `${inherited ? 'source.framing' : 'sink.framing'} is registry framing, which raretide cannot write with (it registers no schemas); ` +
-          'set sink.framing to raw or single-object for the output topic.',
-      );
+      return registryOutputFraming(config, reader, inherited ? 'source.framing' : 'sink.framing');
   }
+}
+
+/** Registry framing for writing: the configured id must hold the schema records are written with. */
+async function registryOutputFraming(config: Extract<FramingConfig, { kind: 'registry' }>, schema: KnownSchema, field: string): Promise<Framing> {
+  if (config.outputSchemaId === undefined) {
+    throw new UsageError(
+      `${field}.outputSchemaId is missing: to write registry framing, register the output schema and give its id ` +
+        '(raretide registers no schemas), or set sink.framing to raw or single-object',
+    );
+  }
+  const framing = new RegistryFraming(new HttpSchemaRegistry({ url: config.url }), { schema, schemaId: config.outputSchemaId });
+  const checked = await framing.checkOutput();
+  if (!checked.ok) throw new UsageError(`${field}.outputSchemaId = ${config.outputSchemaId}: ${checked.problem.reason}`, { code: 'avro.schema-mismatch' });
+  return framing;
 }
 
 function checkReadable(writer: KnownSchema, reader: KnownSchema, field: string): void {
