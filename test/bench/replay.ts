@@ -10,13 +10,18 @@
  * version, count and codec) and fitting the model on the first records (its time is printed). Timed,
  * side by side: the replay with its targets, and a floor replay of the same file whose targets are
  * already met (decode, label, encode and write; no model call), so the ratio shows what sampling costs.
- * Then `regenerate --verify` of the balanced output is timed too. Prints figures only; asserts nothing.
+ * Then `regenerate --verify` of the balanced output is timed too. Topic → file: the same records are
+ * produced (not timed) to a 3-partition topic, round-robin, keyed by pallet tag, on KAFKA_BROKERS or else a
+ * local broker started for the run (deploy/kafka/local-broker.ts, stopped at the end), and the balanced
+ * replay is timed again reading that topic (partition by partition) — records/s beside file → file.
+ * `--skip-topic` leaves it out. Prints figures only; asserts nothing.
  */
 import { mkdir, mkdtemp, rm, stat, writeFile } from 'node:fs/promises';
 import { availableParallelism, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parseArgs } from 'node:util';
 import { performance } from 'node:perf_hooks';
+import { startLocalBroker, type LocalBroker } from '../../deploy/kafka/local-broker.js';
 import { knownSchema } from '../../connector/avro/known-schema.js';
 import { ContainerFileReader } from '../../connector/avro/container/container-reader.js';
 import { ContainerFileWriter } from '../../connector/avro/container/container-writer.js';
@@ -28,7 +33,10 @@ import type { ReplaySummary } from '../../connector/cli/replay/replay-summary.js
 import type { AvroRecord } from '../../model/features/avro-types.js';
 import { fitModel } from '../../model/fit.js';
 import { saveModel } from '../../model/vae/index.js';
+import { connectProducer, flushAndDisconnect } from '../support/kafka-clients.js';
+import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
 import { seededRandom } from '../support/seeded-random.js';
+import { createUniqueTopic, deleteTopics } from '../support/topics.js';
 
 /** Bump when the generator changes, so a cached input of the old shape is not reused. */
 const SCENARIO_VERSION = 2;
@@ -38,6 +46,7 @@ const { values: flags } = parseArgs({
     records: { type: 'string', default: process.env.BENCH_RECORDS ?? '1000000' },
     codec: { type: 'string', default: 'deflate' },
     'fit-sample': { type: 'string', default: '20000' },
+    'skip-topic': { type: 'boolean', default: false },
   },
 });
 const recordCount = positiveInteger('--records', flags.records);
@@ -129,10 +138,17 @@ async function* firstRecords(path: string, limit: number): AsyncGenerator<AvroRe
   }
 }
 
-function configFile(label: string, modelDir: string, targets: Record<string, number>): Promise<string> {
+/** `topic`: a topic input (its `kafka` and `source` sections, raw framing with SCHEMA). */
+async function configFile(label: string, modelDir: string, targets: Record<string, number>, topic?: { brokers: string; name: string }): Promise<string> {
   const path = join(workspace, `${label}.yaml`);
   const targetLines = Object.entries(targets).map(([name, share]) => `    ${name}: ${share}`);
-  const text = ['label: {from: field, path: outcome}', 'balance:', '  targets:', ...targetLines, '  maxPerRecord: 5', '  seed: 7', 'model:', `  dir: ${modelDir}`, ''].join('\n');
+  const topicLines: string[] = [];
+  if (topic !== undefined) {
+    const schemaFile = join(workspace, 'pallet-reading.avsc');
+    await writeFile(schemaFile, JSON.stringify(SCHEMA));
+    topicLines.push(`kafka: {brokers: "${topic.brokers}"}`, `source: {topic: ${topic.name}, group: bench-replay, framing: {kind: raw, schemaFile: ${schemaFile}}}`);
+  }
+  const text = [...topicLines, 'label: {from: field, path: outcome}', 'balance:', '  targets:', ...targetLines, '  maxPerRecord: 5', '  seed: 7', 'model:', `  dir: ${modelDir}`, ''].join('\n');
   return writeFile(path, text).then(() => path);
 }
 
@@ -157,13 +173,13 @@ async function measured<T>(work: () => Promise<T>): Promise<Measured<T>> {
   }
 }
 
-async function timedReplay(label: string, modelDir: string, targets: Record<string, number>): Promise<Measured<ReplaySummary>> {
-  const config = await configFile(label, modelDir, targets);
+async function timedReplay(label: string, modelDir: string, targets: Record<string, number>, topic?: { brokers: string; name: string }): Promise<Measured<ReplaySummary>> {
+  const config = await configFile(label, modelDir, targets, topic);
   return measured(() =>
     runReplay(
       {
         configPath: config,
-        input: { kind: 'file', path: input },
+        input: topic === undefined ? { kind: 'file', path: input } : { kind: 'topic', start: { from: 'earliest' } },
         output: { kind: 'file', path: join(workspace, `${label}.avro`) },
         includeOriginals: true,
         rateCap: false,
@@ -183,6 +199,32 @@ async function timedVerify(modelDir: string): Promise<Measured<VerifySummary>> {
   } finally {
     await session.close();
   }
+}
+
+/** The input file's records produced to a new 3-partition topic, round-robin, keyed by pallet tag (not timed). */
+async function topicOfInput(brokers: string): Promise<string> {
+  const started = performance.now();
+  const topic = await createUniqueTopic(brokers, { prefix: 'bench-replay', partitions: 3 });
+  const type = knownSchema(SCHEMA, 'pallet-reading.avsc').type;
+  const producer = await connectProducer({ 'metadata.broker.list': brokers, 'linger.ms': 20 });
+  try {
+    let index = 0;
+    for await (const record of firstRecords(input, recordCount)) {
+      await produceWithBackpressure(producer, { topic, partition: index++ % 3, value: type.toBuffer(record), key: String(record.palletTag) });
+    }
+  } finally {
+    await flushAndDisconnect(producer);
+  }
+  console.log(`produced ${count(recordCount)} records to ${topic} (3 partitions) in ${seconds(performance.now() - started)} (not timed)`);
+  return topic;
+}
+
+/** KAFKA_BROKERS, else a local broker for this run. */
+async function benchBroker(): Promise<{ brokers: string; local: LocalBroker | undefined }> {
+  const given = process.env.KAFKA_BROKERS;
+  if (given !== undefined && given !== '') return { brokers: given, local: undefined };
+  const local = await startLocalBroker({ log: (line) => console.log(`[kafka] ${line}`) });
+  return { brokers: local.brokers, local };
 }
 
 const QUIET_CONTEXT: CliContext = { env: {}, stdout: () => undefined, stderr: (text) => process.stderr.write(text) };
@@ -207,6 +249,17 @@ try {
     ['floor (targets met, no model call)', floor],
     ['balanced (targets 5 % + 5 %, k ≤ 5)', balanced],
   ];
+  if (flags['skip-topic'] !== true) {
+    const broker = await benchBroker();
+    let topic: string | undefined;
+    try {
+      topic = await topicOfInput(broker.brokers);
+      runs.push(['balanced, topic → file (3 partitions)', await timedReplay('balanced-topic', modelDir, TARGETS, { brokers: broker.brokers, name: topic })]);
+    } finally {
+      if (topic !== undefined && broker.local === undefined) await deleteTopics(broker.brokers, [topic]);
+      await broker.local?.stop();
+    }
+  }
   const rows = [
     ['replay', 'elapsed', 'cpu', 'records/s', 'synthetic', 'synthetic/s', 'rss peak'],
     ...runs.map(([label, { result: summary, rssPeak, cpuMs }]) => [
@@ -223,6 +276,10 @@ try {
   for (const row of rows) console.log(row.map((cell, column) => (column === 0 ? cell.padEnd(widths[column]!) : cell.padStart(widths[column]!))).join('  '));
   const shares = balanced.result.classes.map((entry) => `${entry.label} ${(entry.before.share * 100).toFixed(2)} % → ${(entry.after.share * 100).toFixed(2)} %`).join(', ');
   console.log(`\nbalanced/floor: elapsed ${(balanced.result.elapsedMs / floor.result.elapsedMs).toFixed(2)}×, cpu ${(balanced.cpuMs / floor.cpuMs).toFixed(2)}×; shares ${shares}`);
+  const fromTopic = runs[2]?.[1].result;
+  if (fromTopic !== undefined) {
+    console.log(`topic → file / file → file: records/s ${(fromTopic.recordsPerSecond / balanced.result.recordsPerSecond).toFixed(2)}× (records in partition order rather than file order, so the synthetic counts differ a little)`);
+  }
   const { result: check } = verified;
   console.log(
     `regenerate --verify of the balanced output: ${count(check.checked)} synthetic records checked (${count(check.matched)} matched) of ${count(check.records)} in ${seconds(check.elapsedMs)}, ` +

@@ -8,7 +8,12 @@ import { runReplay } from '../replay/run-replay.js';
 interface ReplayOptions {
   readonly config: string;
   readonly file?: string;
+  readonly fromTopic?: boolean;
+  readonly startOffset?: string;
+  readonly startTime?: string;
   readonly out?: string;
+  readonly toTopic?: boolean;
+  readonly summary?: string;
   readonly seed?: string;
   readonly includeOriginals?: boolean;
   readonly provenance?: 'field' | 'sidecar';
@@ -31,12 +36,22 @@ export function registerReplay(program: Command, context: CliContext): void {
     .description('replay recorded records through the pipeline into a balanced output, reproducibly (same input, model and seed → same bytes)')
     .addOption(configOption())
     .addOption(new Option('-f, --file <in.avro>', 'Avro container file to replay'))
+    .addOption(new Option('--from-topic', "replay the config's source.topic as it stands now (up to the end offsets taken at start; partition by partition, in offset order)"))
+    .addOption(new Option('--start-offset <n>', 'with --from-topic: start every partition at this offset (default: the earliest)'))
+    .addOption(new Option('--start-time <iso>', 'with --from-topic: start every partition at its first record at or after this time'))
     .addOption(new Option('-o, --out <out.avro>', 'Avro container file to write (replaced atomically at the end)'))
+    .addOption(new Option('--to-topic', "write to the config's sink.topic (dead letters to sink.deadLetterTopic)"))
+    .addOption(new Option('--summary <path>', 'with --to-topic: also write the summary JSON here (default: printed only)'))
     .addOption(new Option('--seed <n>', 'seed of sampling and rounding (overrides balance.seed)'))
     .addOption(new Option('--include-originals', 'write the originals too, a balanced copy (overrides sink.includeOriginals)'))
     .addOption(new Option('--provenance <where>', 'provenance in an added field or a sidecar file (overrides sink.provenance)').choices(['field', 'sidecar']))
     .addOption(new Option('--rate-cap', "apply the config's rateCap (a replay runs uncapped by default)"))
-    .addHelpText('after', '\nExample:\n  $ raretide replay --config raretide.yaml --file history.avro --out balanced.avro\n')
+    .addHelpText(
+      'after',
+      '\nExamples:\n  $ raretide replay --config raretide.yaml --file history.avro --out balanced.avro\n' +
+        '  $ raretide replay --config raretide.yaml --from-topic --start-time 2026-01-01T00:00:00Z --out balanced.avro\n' +
+        '  $ raretide replay --config raretide.yaml --from-topic --to-topic --summary replay-summary.json\n',
+    )
     .action(async (options: ReplayOptions, command: Command) => {
       const { input, output } = endpointsFrom(options);
       const seed = seedOption(options.seed);

@@ -1,11 +1,13 @@
 /**
  * `raretide replay` end to end: load the model and config, open the input and output, run the shared
  * pipeline (cumulative counts, rate cap only when asked), then close the output and write the summary.
- * On any failure the output is aborted, so no partial file is left under the output's name.
+ * On any failure the output is aborted, so no partial file is left under the output's name (a topic
+ * output keeps the batches delivered before the failure). A failed checkpoint ends the replay: the
+ * input cannot rewind to the last checkpoint, so there is nothing to resume from.
  */
 import { rename, writeFile } from 'node:fs/promises';
 import { basename, dirname, join } from 'node:path';
-import { UsageError } from '../../../config/errors.js';
+import { RaretideError, UsageError } from '../../../config/errors.js';
 import { loadConfigFile } from '../../../config/load.js';
 import { requireSections } from '../../../config/requirements.js';
 import { knownSchema, loadSchemaFile, type KnownSchema } from '../../avro/known-schema.js';
@@ -57,11 +59,11 @@ export async function runReplay(request: ReplayRequest, effects: ReplayEffects):
   let output: OpenedOutput | undefined;
   try {
     const reader = await readerSchema(config.source?.readerSchemaFile, synthesizer);
-    input = await openInput(request.input, reader);
+    input = await openInput(request.input, reader, config);
     if (input.labelFromFieldOnly && config.label.from !== 'field') {
       throw new UsageError(`label.from is ${config.label.from}, but records of ${input.name} have no ${config.label.from === 'key' ? 'keys' : 'headers'}; label them by a field (label.from: field).`);
     }
-    output = await openOutput(request.output, request.input, { recordSchema: reader, provenance, seed, modelId: synthesizer.modelId }, input.fileCodec);
+    output = await openOutput(request.output, request.input, { recordSchema: reader, provenance, seed, modelId: synthesizer.modelId }, input.fileCodec, config);
     const balanceConfig = { ...config.balance, seed, counting: { mode: 'cumulative' as const } };
     const pipeline = assemblePipeline({
       label: config.label,
@@ -87,7 +89,9 @@ export async function runReplay(request: ReplayRequest, effects: ReplayEffects):
         if (!request.quiet) progress.update(runner.counters, opened.progress());
       },
     });
-    await runner.run();
+    await runner.run().catch((error: unknown) => {
+      throw unresumable(error, opened.name);
+    });
     await output.sink.close();
     await input.source.close();
     const summary = buildReplaySummary({
@@ -104,16 +108,27 @@ export async function runReplay(request: ReplayRequest, effects: ReplayEffects):
       shares: pipeline.balance.shares(),
       elapsedMs: clock.now() - started,
     });
-    await writeJsonFile(output.summaryPath, summary);
+    if (output.summaryPath !== undefined) await writeJsonFile(output.summaryPath, summary);
     if (!request.quiet) context.stdout(renderReplaySummary(summary));
     return summary;
   } catch (error) {
-    await output?.sink.abort();
+    // The first failure is the one to report; a failing clean-up must not hide it.
+    await output?.discard().catch(() => undefined);
     await input?.source.close();
     throw error;
   } finally {
     synthesizer.dispose();
   }
+}
+
+/** The runner asks for a resume from the last checkpoint after a failed one; a replay cannot rewind its input. */
+function unresumable(error: unknown, inputName: string): unknown {
+  if (!(error instanceof RaretideError) || error.code !== 'pipeline.checkpoint-failed') return error;
+  return new RaretideError(
+    'replay.checkpoint-failed',
+    `${error.message.replace(/ Resume from .*$/, '')} A replay cannot rewind ${inputName} to its last checkpoint, so it stops here; fix the cause and run the replay again into a fresh output.`,
+    { retriable: false, cause: error },
+  );
 }
 
 /** Records are read as the configured reader schema, else as the schema the model was fitted on. */
