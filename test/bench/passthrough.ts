@@ -19,26 +19,21 @@
  * delivery report per message costs ~10 µs of main-thread time and holds its queue slot until served;
  * consume(n) costs ~13 µs of CPU per message in the binding (kcat's consumer ~0.6 µs); produce ~4 µs.
  */
-import { setImmediate as nextTurn } from 'node:timers/promises';
 import { parseArgs } from 'node:util';
 
-import Kafka, { type LibrdKafkaError, type Producer } from 'node-rdkafka';
+import Kafka from 'node-rdkafka';
 
 import { KafkaConsumerSource } from '../../connector/kafka/consumer-source.js';
 import { KafkaProducerSink } from '../../connector/kafka/producer-sink.js';
 import { shutdownKafkaAdapters } from '../../connector/kafka/shutdown.js';
 import { startLocalBroker, type LocalBroker } from '../../deploy/kafka/local-broker.js';
 import { positionsOf, readWholeTopic } from '../support/adapter-loop.js';
-import { consumeBatch } from '../support/consume-until.js';
 import { connectConsumer, connectProducer, disconnect, settle } from '../support/kafka-clients.js';
 import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
 import { pumpStationReadings, pumpStationReadingType } from '../support/pump-station-telemetry.js';
 import { createUniqueTopic, deleteTopics, uniqueName } from '../support/topics.js';
-import { waitFor } from '../support/wait-for.js';
 import { kcatVersion, runKcatPipe } from './kcat-pipe.js';
-
-/** The node pipe gives up when the source yields nothing for this long. */
-const STALL_TIMEOUT_MS = 30_000;
+import { runNodePipe, STALL_TIMEOUT_MS } from './node-pipe.js';
 
 interface PipeResult {
   label: string;
@@ -79,74 +74,6 @@ async function fillSourceTopic(brokers: string, topic: string, count: number): P
   const seconds = (Date.now() - started) / 1000;
   console.log(`source: ${count} records, ${(bytes / count).toFixed(0)} bytes each on average, produced in ${seconds.toFixed(1)} s (${Math.round(count / seconds)} records/s incl. Avro encoding)`);
   return bytes;
-}
-
-/** librdkafka's ERR__QUEUE_FULL: `produce` refused, the local queue is full. */
-const ERR_QUEUE_FULL = -184;
-
-type ReportMode = 'every message' | 'failures only';
-
-/**
- * Waits for room after a queue-full refusal. With a report per message the next report frees a slot;
- * with failure reports only there is none to wait for, so a short flush does the waiting.
- */
-async function waitForRoom(producer: Producer, reports: ReportMode): Promise<void> {
-  if (reports === 'every message') await new Promise((resolve) => producer.once('delivery-report', resolve));
-  else await new Promise((resolve) => producer.flush(5, resolve));
-}
-
-/** The plain node-rdkafka pipe: batch consume, async produce, commit after each batch. */
-async function runNodePipe(brokers: string, sourceTopic: string, sinkTopic: string, reports: ReportMode): Promise<number> {
-  const consumer = await connectConsumer({ 'metadata.broker.list': brokers, 'group.id': uniqueName('bench-node-pipe') });
-  const producer = await connectProducer({ 'metadata.broker.list': brokers, 'delivery.report.only.error': reports === 'failures only' });
-  let acked = 0;
-  const failures: string[] = [];
-  producer.on('delivery-report', (error: LibrdKafkaError | null) => {
-    if (error) failures.push(error.message);
-    else acked += 1;
-  });
-  const started = Date.now();
-  consumer.subscribe([sourceTopic]);
-  let forwarded = 0;
-  let firstRecordMs: number | undefined;
-  let lastProgress = Date.now();
-  while (forwarded < recordCount) {
-    const batch = await consumeBatch(consumer, batchSize);
-    if (batch.length > 0) lastProgress = Date.now();
-    else if (Date.now() - lastProgress > STALL_TIMEOUT_MS) {
-      throw new Error(`node pipe stalled: no records for ${STALL_TIMEOUT_MS} ms after ${forwarded} of ${recordCount}`);
-    }
-    if (firstRecordMs === undefined && batch.length > 0) firstRecordMs = Date.now() - started;
-    for (const message of batch) {
-      for (;;) {
-        try {
-          producer.produce(sinkTopic, null, message.value, message.key, message.timestamp);
-          break;
-        } catch (error) {
-          if ((error as LibrdKafkaError).code !== ERR_QUEUE_FULL) throw error;
-          await waitForRoom(producer, reports);
-        }
-      }
-    }
-    forwarded += batch.length;
-    if (batch.length > 0) consumer.commit();
-  }
-  await settle('flush of the node pipe', (done) => producer.flush(60_000, done));
-  if (reports === 'every message') await waitFor(() => acked + failures.length >= recordCount, { what: 'delivery reports of the node pipe' });
-  // Failure reports queued before the flush returned reach JS within the next turns (connector/kafka/delivery-tracker.ts).
-  else {
-    let seen: number;
-    do {
-      seen = failures.length;
-      await nextTurn();
-    } while (failures.length !== seen);
-  }
-  const elapsedMs = Date.now() - started;
-  await disconnect(producer);
-  await disconnect(consumer);
-  if (failures.length > 0) throw new Error(`node pipe: ${failures.length} deliveries failed, first: ${failures[0]}`);
-  console.log(`node pipe (${reports}): first batch ${firstRecordMs} ms after subscribe (group join + first fetch), included below`);
-  return elapsedMs;
 }
 
 /** raretide's adapters as the worker drives them: each batch copied, sent and checkpointed. */
@@ -227,7 +154,9 @@ async function main(): Promise<void> {
     const results: PipeResult[] = [];
     for (const reports of ['every message', 'failures only'] as const) {
       const nodeSink = await newTopic('bench-node-sink');
-      results.push({ label: `node-rdkafka, reports: ${reports}`, elapsedMs: await runNodePipe(brokers, source, nodeSink, reports) });
+      const { elapsedMs, firstRecordMs } = await runNodePipe({ brokers, sourceTopic: source, sinkTopic: nodeSink, reports, recordCount, batchSize });
+      console.log(`node pipe (${reports}): first batch ${firstRecordMs} ms after subscribe (group join + first fetch), included below`);
+      results.push({ label: `node-rdkafka, reports: ${reports}`, elapsedMs });
       const nodeCount = await countRecords(brokers, nodeSink);
       if (nodeCount !== recordCount) throw new Error(`node pipe wrote ${nodeCount} records, expected ${recordCount}`);
     }

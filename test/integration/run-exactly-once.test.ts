@@ -4,25 +4,19 @@
  * must see each synthetic record once — no more than the balance counts committed with them say were
  * made, and no fewer. Then SIGTERM must finish, checkpoint and exit 0 within the stop bound.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
-import { once } from 'node:events';
-import { fileURLToPath } from 'node:url';
-
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { loadBalanceStates } from '../../connector/kafka/state-topic.js';
 import type { SyntheticTag } from '../../connector/pipeline/provenance.js';
 import { committedOffsets, endOffsets } from '../support/adapter-loop.js';
-import { connectConsumer, disconnect } from '../support/kafka-clients.js';
 import { kafkaBrokers } from '../support/kafka-brokers.js';
 import { fitSorterModel, makeWorkspace, readTagged, sorterEvents, startInProcess, sumOf, variantKey, writeEvents, writeRunConfig, writeSorterSchema } from '../support/run-worker-scenario.js';
+import { killLeftovers, recordsWritten, spawnWorker } from '../support/spawned-worker.js';
 import { createUniqueTopic, deleteTopics, uniqueName } from '../support/topics.js';
 import { waitFor } from '../support/wait-for.js';
 
 const brokers = kafkaBrokers();
-const repositoryRoot = fileURLToPath(new URL('../..', import.meta.url));
 const createdTopics: string[] = [];
-const children: ChildProcess[] = [];
 let workspace: Awaited<ReturnType<typeof makeWorkspace>>;
 
 beforeAll(async () => {
@@ -30,49 +24,10 @@ beforeAll(async () => {
 });
 
 afterAll(async () => {
-  for (const child of children) if (child.exitCode === null && child.signalCode === null) child.kill('SIGKILL');
+  killLeftovers();
   if (createdTopics.length > 0) await deleteTopics(brokers, createdTopics);
   await workspace?.remove();
 });
-
-interface SpawnedWorker {
-  readonly child: ChildProcess;
-  readonly stderr: () => string;
-  readonly exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
-}
-
-function spawnWorker(configPath: string, instanceId: string): SpawnedWorker {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId], {
-    cwd: repositoryRoot,
-    stdio: ['ignore', 'ignore', 'pipe'],
-  });
-  children.push(child);
-  let stderr = '';
-  child.stderr!.setEncoding('utf8').on('data', (text: string) => (stderr += text));
-  const exited = once(child, 'exit').then(([code, signal]) => ({ code: code as number | null, signal: signal as NodeJS.Signals | null }));
-  return { child, stderr: () => stderr, exited };
-}
-
-/**
- * Records in the output topic, open transactions included: a read_uncommitted consumer's end offsets are
- * the high watermarks (a read_committed one is told the last stable offsets, which stop at the first
- * open transaction).
- */
-async function outputEnd(topic: string): Promise<number> {
-  const consumer = await connectConsumer({ 'metadata.broker.list': brokers, 'group.id': uniqueName('test-hw'), 'isolation.level': 'read_uncommitted' });
-  try {
-    let total = 0;
-    for (let partition = 0; partition < 3; partition++) {
-      total += await new Promise<number>((resolve) => {
-        // A topic the worker has not created yet reads as empty.
-        consumer.queryWatermarkOffsets(topic, partition, 5_000, (error, offsets) => resolve(error ? 0 : offsets.highOffset));
-      });
-    }
-    return total;
-  } finally {
-    await disconnect(consumer);
-  }
-}
 
 describe('raretide run, exactly-once, a spawned worker killed and restarted', () => {
   it('shows each synthetic record once to read_committed readers; SIGTERM then exits 0', async () => {
@@ -95,7 +50,7 @@ describe('raretide run, exactly-once, a spawned worker killed and restarted', ()
     });
 
     const first = spawnWorker(config, 'eos-0');
-    await waitFor(async () => (await outputEnd(topics.output)) >= 150, { what: 'the first worker to write some output', timeoutMs: 60_000, intervalMs: 50 });
+    await waitFor(async () => (await recordsWritten(brokers, topics.output, 3)) >= 150, { what: 'the first worker to write some output', timeoutMs: 60_000, intervalMs: 50 });
     first.child.kill('SIGKILL');
     expect(await first.exited).toEqual({ code: null, signal: 'SIGKILL' });
     const endsAtKill = await endOffsets(brokers, source, 3);

@@ -115,6 +115,8 @@ export interface ConfigOptions {
   readonly sourceFraming?: FramingConfig;
   /** @default the source's */
   readonly sinkFraming?: FramingConfig;
+  /** `model.privacyGuard.scope`; `off` makes every planned variant an output. @default the config's */
+  readonly privacyGuardScope?: 'off' | 'source' | 'class';
 }
 
 /** Writes a JSON config for `raretide run`; returns its path. */
@@ -132,7 +134,7 @@ export async function writeRunConfig(dir: string, name: string, options: ConfigO
     label: { from: 'field', path: 'outcome' },
     balance: { targets: { ...options.targets }, maxPerRecord: 5, seed: options.seed ?? 11 },
     delivery: { guarantee: options.guarantee ?? 'at-least-once', batchSize: options.batchSize ?? 500 },
-    model: { dir: options.modelDir },
+    model: { dir: options.modelDir, ...(options.privacyGuardScope === undefined ? {} : { privacyGuard: { scope: options.privacyGuardScope } }) },
     metrics: { port: 0 },
     ...(options.rateCap === undefined ? {} : { rateCap: options.rateCap }),
   };

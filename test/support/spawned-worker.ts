@@ -1,0 +1,59 @@
+/**
+ * `raretide run` as a real child process (`node --import tsx connector/cli/main.ts run`), for the tests
+ * that kill it with SIGKILL or SIGTERM, and a count of what it has written so far.
+ */
+import { spawn, type ChildProcess } from 'node:child_process';
+import { once } from 'node:events';
+import { fileURLToPath } from 'node:url';
+
+import { connectConsumer, disconnect } from './kafka-clients.js';
+import { uniqueName } from './topics.js';
+
+const repositoryRoot = fileURLToPath(new URL('../..', import.meta.url));
+
+export interface SpawnedWorker {
+  readonly child: ChildProcess;
+  /** Everything the worker wrote to standard error so far (its JSON log). */
+  readonly stderr: () => string;
+  readonly exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
+}
+
+/** Spawned workers not yet known to have exited; `killLeftovers` ends them (for `afterAll`). */
+const spawned: ChildProcess[] = [];
+
+export function spawnWorker(configPath: string, instanceId: string): SpawnedWorker {
+  const child = spawn(process.execPath, ['--import', 'tsx', 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId], {
+    cwd: repositoryRoot,
+    stdio: ['ignore', 'ignore', 'pipe'],
+  });
+  spawned.push(child);
+  let stderr = '';
+  child.stderr!.setEncoding('utf8').on('data', (text: string) => (stderr += text));
+  const exited = once(child, 'exit').then(([code, signal]) => ({ code: code as number | null, signal: signal as NodeJS.Signals | null }));
+  return { child, stderr: () => stderr, exited };
+}
+
+/** SIGKILLs every spawned worker still running. */
+export function killLeftovers(): void {
+  for (const child of spawned) if (child.exitCode === null && child.signalCode === null) child.kill('SIGKILL');
+}
+
+/**
+ * Records in `topic`, open transactions included: a read_uncommitted consumer's end offsets are the high
+ * watermarks (a read_committed one is told the last stable offsets, which stop at the first open
+ * transaction). A topic the worker has not created yet reads as empty.
+ */
+export async function recordsWritten(brokers: string, topic: string, partitions: number): Promise<number> {
+  const consumer = await connectConsumer({ 'metadata.broker.list': brokers, 'group.id': uniqueName('test-hw'), 'isolation.level': 'read_uncommitted' });
+  try {
+    let total = 0;
+    for (let partition = 0; partition < partitions; partition++) {
+      total += await new Promise<number>((resolve) => {
+        consumer.queryWatermarkOffsets(topic, partition, 5_000, (error, offsets) => resolve(error ? 0 : offsets.highOffset));
+      });
+    }
+    return total;
+  } finally {
+    await disconnect(consumer);
+  }
+}
