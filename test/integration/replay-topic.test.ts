@@ -13,13 +13,10 @@ import { registerReplay } from '../../connector/cli/commands/replay.js';
 import { EXIT_OK, EXIT_USAGE, runCli } from '../../connector/cli/program.js';
 import type { ReplaySummary } from '../../connector/cli/replay/replay-summary.js';
 import { KafkaSnapshotSource } from '../../connector/kafka/snapshot-source.js';
-import { fitModel } from '../../model/fit.js';
-import { saveModel } from '../../model/vae/index.js';
-import { SORTER_EVENT_SCHEMA, messagesOf, sorterEvents } from '../unit/pipeline/support/sorter-events.js';
-import { connectProducer, flushAndDisconnect } from '../support/kafka-clients.js';
+import { SORTER_EVENT_SCHEMA } from '../unit/pipeline/support/sorter-events.js';
 import { kafkaBrokers } from '../support/kafka-brokers.js';
-import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
-import { createUniqueTopic, deleteTopics, uniqueName } from '../support/topics.js';
+import { produceSorterTopic, saveTinySorterModel } from '../support/sorter-topic.js';
+import { deleteTopics, uniqueName } from '../support/topics.js';
 
 const brokers = kafkaBrokers();
 const PARTITIONS = 3;
@@ -85,29 +82,13 @@ async function valuesPerPartition(topic: string): Promise<string[][]> {
 
 beforeAll(async () => {
   workspace = await mkdtemp(join(tmpdir(), 'raretide-replay-topic-'));
-  const events = sorterEvents(RECORDS, { jam: 0.03, misroute: 0.02 }, 21);
   schemaFile = join(workspace, 'sorter-event.avsc');
   await writeFile(schemaFile, JSON.stringify(SORTER_EVENT_SCHEMA));
-  sourceTopic = await createUniqueTopic(brokers, { prefix: 'replay-source', partitions: PARTITIONS });
+  const produced = await produceSorterTopic(brokers, { prefix: 'replay-source', partitions: PARTITIONS, records: RECORDS, seed: 21 });
+  sourceTopic = produced.topic;
   createdTopics.push(sourceTopic);
-  const producer = await connectProducer({ 'metadata.broker.list': brokers });
-  try {
-    for (const message of messagesOf(events, PARTITIONS, sourceTopic)) {
-      await produceWithBackpressure(producer, { topic: sourceTopic, partition: message.partition, value: message.value, key: message.key, timestamp: message.timestamp ?? null });
-    }
-  } finally {
-    await flushAndDisconnect(producer);
-  }
   // The tiny model of test/unit/cli/replay-command.test.ts.
-  const fitted = await fitModel({
-    schema: SORTER_EVENT_SCHEMA,
-    records: events as never,
-    labelPath: 'outcome',
-    training: { hidden: [16], latent: 2, epochs: 4, batchSize: 256, seed: 3 },
-  });
-  modelDir = join(workspace, 'model');
-  await saveModel(modelDir, fitted.bundle);
-  fitted.dispose();
+  modelDir = await saveTinySorterModel(produced.events, workspace, { epochs: 4, seed: 3 });
 });
 
 afterAll(async () => {

@@ -2,13 +2,15 @@ import { Option, type Command } from 'commander';
 import { UsageError } from '../../../config/errors.js';
 import { globalOptions, type CliContext } from '../cli-context.js';
 import { configOption } from '../options.js';
-import { regenerateOne, type TagOrigin } from '../regenerate/regenerate-one.js';
+import { regenerateOne, type SingleRequest, type TagOrigin } from '../regenerate/regenerate-one.js';
 import { openSession } from '../regenerate/regenerate-session.js';
+import { openTopicSession } from '../regenerate/topic-source-record.js';
 import { failOnMismatch, renderVerifySummary, verifyOutput } from '../regenerate/verify-output.js';
 
 interface RegenerateOptions {
   readonly config: string;
   readonly file?: string;
+  readonly fromTopic?: boolean;
   readonly out?: string;
   readonly verify?: boolean;
   readonly record?: string;
@@ -26,6 +28,7 @@ export function registerRegenerate(program: Command, context: CliContext): void 
     .description('make a synthetic record again from its provenance tag and source record; --verify checks every synthetic record of a replay output')
     .addOption(configOption())
     .addOption(new Option('-f, --file <in.avro>', 'the Avro container file the replay read'))
+    .addOption(new Option('--from-topic', "read the source record from the config's source.topic, at the tag's partition and offset"))
     .addOption(new Option('-o, --out <out.avro>', 'the replay output: checked whole with --verify, or its record --record <n>'))
     .addOption(new Option('--verify', 'regenerate every synthetic record of --out and compare the bytes'))
     .addOption(new Option('--record <n>', 'regenerate record n (from 0) of --out, reading its tag from the file'))
@@ -41,11 +44,26 @@ export function registerRegenerate(program: Command, context: CliContext): void 
         '  $ raretide regenerate --config raretide.yaml --file history.avro --out balanced.avro --record 1234\n' +
         '  $ raretide regenerate --config raretide.yaml --file history.avro --tag raretide.kind=synthetic \\\n' +
         '      --tag raretide.source.topic=history.avro --tag raretide.source.partition=0 --tag raretide.source.offset=17 \\\n' +
-        '      --tag raretide.model=9c1e5f0a7b3d2e64 --tag raretide.sample=2 --tag raretide.seed=1 --tag raretide.temperature=1\n',
+        '      --tag raretide.model=9c1e5f0a7b3d2e64 --tag raretide.sample=2 --tag raretide.seed=1 --tag raretide.temperature=1\n' +
+        '  $ raretide regenerate --config raretide.yaml --from-topic --out balanced.avro --record 1234\n',
     )
     .action(async (options: RegenerateOptions, command: Command) => {
       const { quiet } = globalOptions(command);
-      if (options.file === undefined) throw new UsageError('regenerate needs the input the replay read: --file <in.avro>.');
+      const modelDir = options.modelDir === undefined ? {} : { modelDir: options.modelDir };
+      if (options.fromTopic === true) {
+        if (options.file !== undefined || options.verify === true || options.sourceName !== undefined) {
+          throw new UsageError('--from-topic reads one source record from source.topic; leave out --file, --verify and --source-name (they are for a replay of a file).');
+        }
+        const tagOrigin = tagOriginOf(options);
+        const session = await openTopicSession({ configPath: options.config, ...modelDir }, context);
+        try {
+          await regenerateOne(session, singleRequest(tagOrigin, options, quiet), context);
+        } finally {
+          await session.close();
+        }
+        return;
+      }
+      if (options.file === undefined) throw new UsageError('regenerate needs the input the replay read: --file <in.avro>, or --from-topic for a topic.');
       const tagOrigin = options.verify === true ? undefined : tagOriginOf(options);
       if (options.verify === true && options.out === undefined) throw new UsageError('--verify needs the replay output to check: --out <out.avro>.');
       if (options.verify === true && (options.record ?? options.tag ?? options.tagJson ?? options.compare) !== undefined) {
@@ -55,14 +73,14 @@ export function registerRegenerate(program: Command, context: CliContext): void 
         {
           configPath: options.config,
           input: options.file,
-          ...(options.modelDir === undefined ? {} : { modelDir: options.modelDir }),
+          ...modelDir,
           ...(options.sourceName === undefined ? {} : { sourceName: options.sourceName }),
         },
         context,
       );
       try {
         if (tagOrigin !== undefined) {
-          await regenerateOne(session, { tag: tagOrigin, ...(options.compare === undefined ? {} : { compare: options.compare }), quiet }, context);
+          await regenerateOne(session, singleRequest(tagOrigin, options, quiet), context);
           return;
         }
         const summary = await verifyOutput(
@@ -76,6 +94,10 @@ export function registerRegenerate(program: Command, context: CliContext): void 
         await session.close();
       }
     });
+}
+
+function singleRequest(tag: TagOrigin, options: RegenerateOptions, quiet: boolean): SingleRequest {
+  return { tag, ...(options.compare === undefined ? {} : { compare: options.compare }), quiet };
 }
 
 function collect(value: string, previous: string[] | undefined): string[] {

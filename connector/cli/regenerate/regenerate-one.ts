@@ -1,6 +1,6 @@
 /**
  * `regenerate` for one synthetic record: its tag (from flags, JSON, or record n of an output file) and
- * its source record in the input file give the record again, printed in Avro's JSON encoding on
+ * its source record (in the input file, or in the topic) give the record again, printed in Avro's JSON encoding on
  * stdout. It is compared with the output record it was read from, or with `--compare`; a difference
  * exits 1 naming the first differing field.
  */
@@ -9,7 +9,7 @@ import type { SyntheticTag } from '../../pipeline/provenance.js';
 import type { CliContext } from '../cli-context.js';
 import { openOutputRecords, type OutputRecord } from './output-records.js';
 import { firstDifference, parseRecordJson, recordJson } from './record-json.js';
-import type { RegenerateSession } from './regenerate-session.js';
+import type { SingleRecordSession } from './regenerate-session.js';
 import { describeTag, describeVariant, syntheticOnly, tagFromFlags, tagFromJson } from './tag-input.js';
 
 export type TagOrigin =
@@ -24,14 +24,11 @@ export interface SingleRequest {
   readonly quiet: boolean;
 }
 
-export async function regenerateOne(session: RegenerateSession, request: SingleRequest, context: CliContext): Promise<void> {
+export async function regenerateOne(session: SingleRecordSession, request: SingleRequest, context: CliContext): Promise<void> {
   const { tag, written } = await resolveTag(request.tag, session);
   const where = request.tag.kind === 'output' ? `Record ${request.tag.record} of ${request.tag.path}` : `The synthetic record ${describeVariant(tag)}`;
   session.regenerator.checkModel(tag.modelId, where);
-  session.checkSource(tag, where);
-
-  const message = await session.cursor.take(tag.source.offset);
-  if (message === undefined) throw new UsageError(`${where} was made from offset ${tag.source.offset}, which the input file does not reach; pass the input the replay read.`);
+  const message = await session.sourceRecord(tag, where);
   const result = (await session.regenerator.regenerate([{ message, tags: [tag] }]))[0]![0]!;
   if (!result.ok) throw new RaretideError('regenerate.no-variant', `${where} cannot be made again: ${result.reason}.`);
   const type = session.reader.type;
@@ -48,7 +45,7 @@ export async function regenerateOne(session: RegenerateSession, request: SingleR
 }
 
 /** The tag to regenerate, and the output record it was read from (when it was). */
-async function resolveTag(origin: TagOrigin, session: RegenerateSession): Promise<{ tag: SyntheticTag; written?: OutputRecord }> {
+async function resolveTag(origin: TagOrigin, session: SingleRecordSession): Promise<{ tag: SyntheticTag; written?: OutputRecord }> {
   switch (origin.kind) {
     case 'flags':
       return { tag: tagFromFlags(origin.flags) };
@@ -64,7 +61,7 @@ function verdict(difference: string | undefined, what: string, context: CliConte
   if (!quiet) context.stderr(`${what}: matches its regeneration byte for byte\n`);
 }
 
-async function outputRecord(path: string, index: number, session: RegenerateSession): Promise<{ tag: SyntheticTag; written: OutputRecord }> {
+async function outputRecord(path: string, index: number, session: SingleRecordSession): Promise<{ tag: SyntheticTag; written: OutputRecord }> {
   const output = await openOutputRecords(path, session.reader);
   try {
     let count = 0;
