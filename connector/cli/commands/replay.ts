@@ -2,18 +2,11 @@ import { Option, type Command } from 'commander';
 import { UsageError } from '../../../config/errors.js';
 import { globalOptions, type CliContext } from '../cli-context.js';
 import { configOption } from '../options.js';
-import { endpointsFrom } from '../replay/replay-endpoints.js';
+import { endpointsFrom, type EndpointOptions } from '../replay/replay-endpoints.js';
 import { runReplay } from '../replay/run-replay.js';
 
-interface ReplayOptions {
+interface ReplayOptions extends EndpointOptions {
   readonly config: string;
-  readonly file?: string;
-  readonly fromTopic?: boolean;
-  readonly startOffset?: string;
-  readonly startTime?: string;
-  readonly out?: string;
-  readonly toTopic?: boolean;
-  readonly summary?: string;
   readonly seed?: string;
   readonly includeOriginals?: boolean;
   readonly provenance?: 'field' | 'sidecar';

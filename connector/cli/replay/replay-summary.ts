@@ -42,19 +42,10 @@ export interface ReplaySummary {
   readonly recordsPerSecond: number;
 }
 
-export interface SummaryInputs {
-  readonly input: string;
-  readonly output: string;
-  readonly sidecars: Readonly<Record<string, string>>;
-  readonly model: { readonly id: string; readonly directory: string };
-  readonly seed: number;
-  readonly temperature: number;
-  readonly maxPerRecord: number;
-  readonly includeOriginals: boolean;
-  readonly provenance: string;
+export interface SummaryInputs
+  extends Pick<ReplaySummary, 'input' | 'output' | 'sidecars' | 'model' | 'seed' | 'temperature' | 'maxPerRecord' | 'includeOriginals' | 'provenance' | 'elapsedMs'> {
   readonly counters: PipelineCounters;
   readonly shares: readonly ClassShare[];
-  readonly elapsedMs: number;
 }
 
 export function buildReplaySummary(inputs: SummaryInputs): ReplaySummary {
