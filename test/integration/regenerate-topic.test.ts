@@ -2,7 +2,8 @@
  * `raretide regenerate --from-topic` on the real broker: a 3-partition topic of invented sorter events
  * (test/unit/pipeline/support/sorter-events.ts) is replayed to a file; a synthetic record of that file,
  * given by its provenance, is made again from its source record read back from the topic by offset and
- * must equal the file's record byte for byte.
+ * must equal the file's record byte for byte. The topic is also replayed to an output topic, whose
+ * every synthetic record `--verify --out-topic` makes again, before and after a tampered copy is added.
  */
 import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
@@ -14,11 +15,16 @@ import type { CliContext } from '../../connector/cli/cli-context.js';
 import { registerRegenerate } from '../../connector/cli/commands/regenerate.js';
 import { registerReplay } from '../../connector/cli/commands/replay.js';
 import { EXIT_FAILURE, EXIT_OK, EXIT_USAGE, runCli } from '../../connector/cli/program.js';
-import { PROVENANCE_FIELD_NAME, fromProvenanceRecord, toHeaders, type SyntheticTag } from '../../connector/pipeline/provenance.js';
+import { describeTag } from '../../connector/cli/regenerate/tag-input.js';
+import { KafkaSnapshotSource } from '../../connector/kafka/snapshot-source.js';
+import { PROVENANCE_FIELD_NAME, fromHeaders, fromProvenanceRecord, toHeaders, type SyntheticTag } from '../../connector/pipeline/provenance.js';
+import type { InputMessage } from '../../connector/pipeline/source-sink.js';
 import { SORTER_EVENT_SCHEMA, sorterSchema } from '../unit/pipeline/support/sorter-events.js';
 import { kafkaBrokers } from '../support/kafka-brokers.js';
 import { produceSorterTopic, saveTinySorterModel } from '../support/sorter-topic.js';
-import { deleteTopics } from '../support/topics.js';
+import { connectProducer, flushAndDisconnect } from '../support/kafka-clients.js';
+import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
+import { deleteTopics, uniqueName } from '../support/topics.js';
 
 const brokers = kafkaBrokers();
 const PARTITIONS = 3;
@@ -26,6 +32,9 @@ const RECORDS = 1500;
 let workspace = '';
 let sourceTopic = '';
 let configFile = '';
+let schemaFile = '';
+let modelDir = '';
+const outputTopics: string[] = [];
 let variant: { value: Record<string, unknown>; tag: SyntheticTag } | undefined;
 
 async function cli(command: 'replay' | 'regenerate', args: readonly string[]): Promise<{ code: number; stdout: string; stderr: string }> {
@@ -44,11 +53,11 @@ function recordPart(record: Record<string, unknown>): Record<string, unknown> {
 
 beforeAll(async () => {
   workspace = await mkdtemp(join(tmpdir(), 'raretide-regenerate-topic-'));
-  const schemaFile = join(workspace, 'sorter-event.avsc');
+  schemaFile = join(workspace, 'sorter-event.avsc');
   await writeFile(schemaFile, JSON.stringify(SORTER_EVENT_SCHEMA));
   const produced = await produceSorterTopic(brokers, { prefix: 'regenerate-source', partitions: PARTITIONS, records: RECORDS, seed: 41 });
   sourceTopic = produced.topic;
-  const modelDir = await saveTinySorterModel(produced.events, workspace, { epochs: 3, seed: 7 });
+  modelDir = await saveTinySorterModel(produced.events, workspace, { epochs: 3, seed: 7 });
   configFile = join(workspace, 'replay.yaml');
   await writeFile(
     configFile,
@@ -84,7 +93,7 @@ beforeAll(async () => {
 }, 120_000);
 
 afterAll(async () => {
-  if (sourceTopic !== '') await deleteTopics(brokers, [sourceTopic]).catch(() => undefined);
+  if (sourceTopic !== '') await deleteTopics(brokers, [sourceTopic, ...outputTopics]).catch(() => undefined);
   await rm(workspace, { recursive: true, force: true });
 });
 
@@ -111,5 +120,87 @@ describe('raretide regenerate --from-topic', () => {
     const tagJson = JSON.stringify(variant!.value[PROVENANCE_FIELD_NAME]);
     expect((await cli('regenerate', ['--config', configFile, '--from-topic', '--file', 'in.avro', '--tag-json', tagJson])).code).toBe(EXIT_USAGE);
     expect((await cli('regenerate', ['--config', configFile, '--from-topic', '--verify', '--out', 'out.avro'])).code).toBe(EXIT_USAGE);
+  });
+});
+
+/** The config of the file replay, writing to `sinkTopic` (dead letters to its own topic). */
+async function topicConfigFile(sinkTopic: string): Promise<string> {
+  outputTopics.push(sinkTopic, `${sinkTopic}.dead-letter`);
+  const path = join(workspace, 'to-topic.yaml');
+  await writeFile(
+    path,
+    [
+      `kafka: {brokers: "${brokers}"}`,
+      'source:',
+      `  topic: ${sourceTopic}`,
+      '  group: regenerate-test',
+      `  framing: {kind: raw, schemaFile: ${schemaFile}}`,
+      `sink: {topic: ${sinkTopic}, deadLetterTopic: ${sinkTopic}.dead-letter}`,
+      'label: {from: field, path: outcome}',
+      'balance:',
+      '  targets: {jam: 0.1, misroute: 0.05}',
+      '  maxPerRecord: 5',
+      '  seed: 9',
+      `model: {dir: ${modelDir}}`,
+      '',
+    ].join('\n'),
+  );
+  return path;
+}
+
+/** Every record of `topic` as it stands, and the end offset of its partition 0. */
+async function readTopic(topic: string): Promise<{ messages: InputMessage[]; endOfPartition0: bigint }> {
+  const source = await KafkaSnapshotSource.open({ kafka: { brokers, settings: {} }, topic });
+  const messages: InputMessage[] = [];
+  try {
+    for (let batch = await source.nextBatch(500); batch !== null; batch = await source.nextBatch(500)) messages.push(...batch);
+  } finally {
+    await source.close();
+  }
+  return { messages, endOfPartition0: source.spans.find((span) => span.partition === 0)!.end };
+}
+
+describe('raretide regenerate --from-topic --verify --out-topic', () => {
+  it('passes on a replay output topic, and fails naming a tampered copy of a synthetic record', async () => {
+    const outputTopic = uniqueName('regenerate-out');
+    const config = await topicConfigFile(outputTopic);
+    const replayed = await cli('replay', ['--config', config, '--from-topic', '--to-topic', '--include-originals', '--quiet']);
+    expect(replayed.code, replayed.stderr).toBe(EXIT_OK);
+
+    const passed = await cli('regenerate', ['--config', config, '--from-topic', '--verify', '--out-topic', outputTopic]);
+    expect(passed.code, passed.stderr).toBe(EXIT_OK);
+    const { messages, endOfPartition0 } = await readTopic(outputTopic);
+    const synthetic = messages.filter((message) => {
+      const tag = fromHeaders(message.headers);
+      return tag.ok && tag.value.kind === 'synthetic';
+    });
+    expect(synthetic.length).toBeGreaterThan(50);
+    expect(passed.stdout).toContain(`records: ${messages.length} (${messages.length - synthetic.length} originals, not regenerated); synthetic checked ${synthetic.length}, matched ${synthetic.length}, mismatched 0`);
+
+    // A copy of one synthetic record with the same headers and one byte of its value flipped, appended to partition 0.
+    const original = synthetic.find((message) => message.partition > 0) ?? synthetic[0]!;
+    const tampered = Buffer.from(original.value);
+    tampered[tampered.length - 1]! ^= 0x01;
+    const headers = original.headers.flatMap((header) => Object.entries(header).map(([name, value]) => ({ [name]: value.toString() })));
+    const producer = await connectProducer({ 'metadata.broker.list': brokers });
+    try {
+      await produceWithBackpressure(producer, { topic: outputTopic, partition: 0, value: tampered, key: original.key, headers });
+    } finally {
+      await flushAndDisconnect(producer);
+    }
+
+    const failed = await cli('regenerate', ['--config', config, '--from-topic', '--verify', '--out-topic', outputTopic, '--quiet']);
+    expect(failed.code).toBe(EXIT_FAILURE);
+    const tag = fromHeaders(original.headers);
+    if (!tag.ok || tag.value.kind !== 'synthetic') throw new Error('the copied record lost its provenance');
+    const named = `record ${outputTopic}:0@${endOfPartition0} (${describeTag(tag.value)})`;
+    expect(failed.stdout).toContain(`synthetic checked ${synthetic.length + 1}, matched ${synthetic.length}, mismatched 1`);
+    expect(failed.stderr).toContain(`1 of ${synthetic.length + 1} synthetic records of topic ${outputTopic} do not match their regeneration; the first is ${named}`);
+  }, 120_000);
+
+  it('needs --out-topic, and leaves out the flags of a file verify', async () => {
+    expect((await cli('regenerate', ['--config', configFile, '--from-topic', '--verify'])).code).toBe(EXIT_USAGE);
+    expect((await cli('regenerate', ['--config', configFile, '--from-topic', '--verify', '--out-topic', 'x', '--record', '3'])).code).toBe(EXIT_USAGE);
+    expect((await cli('regenerate', ['--config', configFile, '--verify', '--out-topic', 'x', '--file', 'in.avro'])).code).toBe(EXIT_USAGE);
   });
 });

@@ -6,12 +6,14 @@ import { regenerateOne, type SingleRequest, type TagOrigin } from '../regenerate
 import { openSession } from '../regenerate/regenerate-session.js';
 import { openTopicSession } from '../regenerate/topic-source-record.js';
 import { failOnMismatch, renderVerifySummary, verifyOutput } from '../regenerate/verify-output.js';
+import { failOnTopicMismatch, renderTopicVerifySummary, verifyTopicOutput } from '../regenerate/verify-topic-output.js';
 
 interface RegenerateOptions {
   readonly config: string;
   readonly file?: string;
   readonly fromTopic?: boolean;
   readonly out?: string;
+  readonly outTopic?: string;
   readonly verify?: boolean;
   readonly record?: string;
   readonly tag?: string[];
@@ -30,7 +32,8 @@ export function registerRegenerate(program: Command, context: CliContext): void 
     .addOption(new Option('-f, --file <in.avro>', 'the Avro container file the replay read'))
     .addOption(new Option('--from-topic', "read the source record from the config's source.topic, at the tag's partition and offset"))
     .addOption(new Option('-o, --out <out.avro>', 'the replay output: checked whole with --verify, or its record --record <n>'))
-    .addOption(new Option('--verify', 'regenerate every synthetic record of --out and compare the bytes'))
+    .addOption(new Option('--out-topic <topic>', 'with --from-topic --verify: the output topic to check (what replay --to-topic or run wrote)'))
+    .addOption(new Option('--verify', 'regenerate every synthetic record of --out (or --out-topic) and compare the bytes'))
     .addOption(new Option('--record <n>', 'regenerate record n (from 0) of --out, reading its tag from the file'))
     .addOption(new Option('--tag <name=value>', 'one provenance header, e.g. raretide.sample=2 (repeat for each)').argParser(collect))
     .addOption(new Option('--tag-json <json>', 'the tag as a JSON object: provenance headers, or an output record\'s raretide_provenance'))
@@ -45,14 +48,20 @@ export function registerRegenerate(program: Command, context: CliContext): void 
         '  $ raretide regenerate --config raretide.yaml --file history.avro --tag raretide.kind=synthetic \\\n' +
         '      --tag raretide.source.topic=history.avro --tag raretide.source.partition=0 --tag raretide.source.offset=17 \\\n' +
         '      --tag raretide.model=9c1e5f0a7b3d2e64 --tag raretide.sample=2 --tag raretide.seed=1 --tag raretide.temperature=1\n' +
-        '  $ raretide regenerate --config raretide.yaml --from-topic --out balanced.avro --record 1234\n',
+        '  $ raretide regenerate --config raretide.yaml --from-topic --out balanced.avro --record 1234\n' +
+        '  $ raretide regenerate --config raretide.yaml --from-topic --verify --out-topic sorter.events.balanced\n',
     )
     .action(async (options: RegenerateOptions, command: Command) => {
       const { quiet } = globalOptions(command);
       const modelDir = options.modelDir === undefined ? {} : { modelDir: options.modelDir };
+      if (options.fromTopic === true && options.verify === true) {
+        await verifyTopic(options, context, quiet);
+        return;
+      }
+      if (options.outTopic !== undefined) throw new UsageError('--out-topic names an output topic to check: use it with --from-topic --verify.');
       if (options.fromTopic === true) {
-        if (options.file !== undefined || options.verify === true || options.sourceName !== undefined) {
-          throw new UsageError('--from-topic reads one source record from source.topic; leave out --file, --verify and --source-name (they are for a replay of a file).');
+        if (options.file !== undefined || options.sourceName !== undefined) {
+          throw new UsageError('--from-topic reads one source record from source.topic; leave out --file and --source-name (they are for a replay of a file).');
         }
         const tagOrigin = tagOriginOf(options);
         const session = await openTopicSession({ configPath: options.config, ...modelDir }, context);
@@ -94,6 +103,24 @@ export function registerRegenerate(program: Command, context: CliContext): void 
         await session.close();
       }
     });
+}
+
+/** `--from-topic --verify --out-topic <topic>`: every synthetic record of an output topic. */
+async function verifyTopic(options: RegenerateOptions, context: CliContext, quiet: boolean): Promise<void> {
+  if (options.outTopic === undefined) {
+    throw new UsageError('--from-topic --verify checks an output topic: add --out-topic <topic> (to check a file written from the topic, regenerate its records with --out <out.avro> --record <n>).');
+  }
+  const stray = ([['--file', options.file], ['--out', options.out], ['--record', options.record], ['--tag', options.tag], ['--tag-json', options.tagJson], ['--compare', options.compare], ['--source-name', options.sourceName]] as const)
+    .filter(([, value]) => value !== undefined)
+    .map(([flag]) => flag);
+  if (stray.length > 0) throw new UsageError(`--from-topic --verify checks every record of --out-topic ${options.outTopic}; leave out ${stray.join(', ')}.`);
+  const summary = await verifyTopicOutput(
+    { configPath: options.config, outputTopic: options.outTopic, ...(options.modelDir === undefined ? {} : { modelDir: options.modelDir }) },
+    context,
+    { clock: { now: () => performance.now() }, ...(quiet ? {} : { progress: context.stderr }) },
+  );
+  if (!quiet || summary.mismatched > 0) context.stdout(renderTopicVerifySummary(summary));
+  failOnTopicMismatch(summary);
 }
 
 function singleRequest(tag: TagOrigin, options: RegenerateOptions, quiet: boolean): SingleRequest {
