@@ -34,6 +34,7 @@ import { pumpStationReadings, pumpStationReadingType } from '../support/pump-sta
 import { createUniqueTopic, deleteTopics, uniqueName } from '../support/topics.js';
 import { kcatVersion, runKcatPipe } from './kcat-pipe.js';
 import { runNodePipe, STALL_TIMEOUT_MS } from './node-pipe.js';
+import { positiveInteger } from './flags.js';
 
 interface PipeResult {
   label: string;
@@ -50,12 +51,6 @@ const { values: flags } = parseArgs({
 const recordCount = positiveInteger('--records', flags.records);
 const partitions = positiveInteger('--partitions', flags.partitions);
 const batchSize = positiveInteger('--batch', flags.batch);
-
-function positiveInteger(name: string, text: string | undefined): number {
-  const value = Number(text);
-  if (!Number.isInteger(value) || value < 1) throw new Error(`${name} must be a positive integer, got \`${text}\``);
-  return value;
-}
 
 /** Fills `topic` with `count` readings; returns the key+value bytes written. */
 async function fillSourceTopic(brokers: string, topic: string, count: number): Promise<number> {

@@ -31,6 +31,7 @@ import { killLeftovers, spawnWorker, type SpawnedWorker } from '../support/spawn
 import { createUniqueTopic, deleteTopics, uniqueName } from '../support/topics.js';
 import { waitFor } from '../support/wait-for.js';
 import { runNodePipe } from './node-pipe.js';
+import { positiveInteger } from './flags.js';
 
 const { values: flags } = parseArgs({
   options: {
@@ -46,12 +47,6 @@ const partitions = positiveInteger('--partitions', flags.partitions);
 const batchSize = positiveInteger('--batch', flags.batch);
 const inputRate = positiveInteger('--rate', flags.rate);
 const pacedSeconds = positiveInteger('--seconds', flags.seconds);
-
-function positiveInteger(name: string, text: string | undefined): number {
-  const value = Number(text);
-  if (!Number.isInteger(value) || value < 1) throw new Error(`${name} must be a positive integer, got \`${text}\``);
-  return value;
-}
 
 /** 2 % rare: the mix the issue's throughput goal is stated at. */
 const RARE_MIX = { jam: 0.01, misroute: 0.01 };

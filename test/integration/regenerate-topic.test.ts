@@ -21,7 +21,7 @@ import { PROVENANCE_FIELD_NAME, fromHeaders, fromProvenanceRecord, toHeaders, ty
 import type { InputMessage } from '../../connector/pipeline/source-sink.js';
 import { SORTER_EVENT_SCHEMA, sorterSchema } from '../unit/pipeline/support/sorter-events.js';
 import { kafkaBrokers } from '../support/kafka-brokers.js';
-import { produceSorterTopic, saveTinySorterModel } from '../support/sorter-topic.js';
+import { produceSorterTopic, saveTinySorterModel, sorterTopicConfig } from '../support/sorter-topic.js';
 import { connectProducer, flushAndDisconnect } from '../support/kafka-clients.js';
 import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
 import { deleteTopics, uniqueName } from '../support/topics.js';
@@ -59,23 +59,7 @@ beforeAll(async () => {
   sourceTopic = produced.topic;
   modelDir = await saveTinySorterModel(produced.events, workspace, { epochs: 3, seed: 7 });
   configFile = join(workspace, 'replay.yaml');
-  await writeFile(
-    configFile,
-    [
-      `kafka: {brokers: "${brokers}"}`,
-      'source:',
-      `  topic: ${sourceTopic}`,
-      '  group: regenerate-test',
-      `  framing: {kind: raw, schemaFile: ${schemaFile}}`,
-      'label: {from: field, path: outcome}',
-      'balance:',
-      '  targets: {jam: 0.1, misroute: 0.05}',
-      '  maxPerRecord: 5',
-      '  seed: 9',
-      `model: {dir: ${modelDir}}`,
-      '',
-    ].join('\n'),
-  );
+  await writeFile(configFile, sorterTopicConfig({ brokers, sourceTopic, group: 'regenerate-test', schemaFile, modelDir, seed: 9 }));
   const output = join(workspace, 'balanced.avro');
   const replayed = await cli('replay', ['--config', configFile, '--from-topic', '--out', output, '--quiet']);
   expect(replayed, replayed.stderr).toMatchObject({ code: EXIT_OK });
@@ -127,24 +111,7 @@ describe('raretide regenerate --from-topic', () => {
 async function topicConfigFile(sinkTopic: string): Promise<string> {
   outputTopics.push(sinkTopic, `${sinkTopic}.dead-letter`);
   const path = join(workspace, 'to-topic.yaml');
-  await writeFile(
-    path,
-    [
-      `kafka: {brokers: "${brokers}"}`,
-      'source:',
-      `  topic: ${sourceTopic}`,
-      '  group: regenerate-test',
-      `  framing: {kind: raw, schemaFile: ${schemaFile}}`,
-      `sink: {topic: ${sinkTopic}, deadLetterTopic: ${sinkTopic}.dead-letter}`,
-      'label: {from: field, path: outcome}',
-      'balance:',
-      '  targets: {jam: 0.1, misroute: 0.05}',
-      '  maxPerRecord: 5',
-      '  seed: 9',
-      `model: {dir: ${modelDir}}`,
-      '',
-    ].join('\n'),
-  );
+  await writeFile(path, sorterTopicConfig({ brokers, sourceTopic, group: 'regenerate-test', schemaFile, modelDir, seed: 9, sinkTopic }));
   return path;
 }
 

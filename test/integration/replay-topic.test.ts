@@ -15,7 +15,7 @@ import type { ReplaySummary } from '../../connector/cli/replay/replay-summary.js
 import { KafkaSnapshotSource } from '../../connector/kafka/snapshot-source.js';
 import { SORTER_EVENT_SCHEMA } from '../unit/pipeline/support/sorter-events.js';
 import { kafkaBrokers } from '../support/kafka-brokers.js';
-import { produceSorterTopic, saveTinySorterModel } from '../support/sorter-topic.js';
+import { produceSorterTopic, saveTinySorterModel, sorterTopicConfig } from '../support/sorter-topic.js';
 import { deleteTopics, uniqueName } from '../support/topics.js';
 
 const brokers = kafkaBrokers();
@@ -40,24 +40,7 @@ async function replay(args: readonly string[]): Promise<{ code: number; stdout: 
 async function configFile(name: string, sinkTopic: string): Promise<string> {
   createdTopics.push(sinkTopic, `${sinkTopic}.dead-letter`);
   const path = join(workspace, `${name}.yaml`);
-  await writeFile(
-    path,
-    [
-      `kafka: {brokers: "${brokers}"}`,
-      'source:',
-      `  topic: ${sourceTopic}`,
-      '  group: replay-test',
-      `  framing: {kind: raw, schemaFile: ${schemaFile}}`,
-      `sink: {topic: ${sinkTopic}, deadLetterTopic: ${sinkTopic}.dead-letter}`,
-      'label: {from: field, path: outcome}',
-      'balance:',
-      '  targets: {jam: 0.1, misroute: 0.05}',
-      '  maxPerRecord: 5',
-      '  seed: 3',
-      `model: {dir: ${modelDir}}`,
-      '',
-    ].join('\n'),
-  );
+  await writeFile(path, sorterTopicConfig({ brokers, sourceTopic, group: 'replay-test', schemaFile, modelDir, seed: 3, sinkTopic }));
   return path;
 }
 

@@ -42,3 +42,30 @@ export async function saveTinySorterModel(events: SorterEvents, workspace: strin
   }
   return modelDir;
 }
+
+/** A raretide config (YAML) replaying a sorter topic with the tiny model; with `sinkTopic`, a topic sink too. */
+export function sorterTopicConfig(options: {
+  brokers: string;
+  sourceTopic: string;
+  group: string;
+  schemaFile: string;
+  modelDir: string;
+  seed: number;
+  sinkTopic?: string;
+}): string {
+  return [
+    `kafka: {brokers: "${options.brokers}"}`,
+    'source:',
+    `  topic: ${options.sourceTopic}`,
+    `  group: ${options.group}`,
+    `  framing: {kind: raw, schemaFile: ${options.schemaFile}}`,
+    ...(options.sinkTopic === undefined ? [] : [`sink: {topic: ${options.sinkTopic}, deadLetterTopic: ${options.sinkTopic}.dead-letter}`]),
+    'label: {from: field, path: outcome}',
+    'balance:',
+    '  targets: {jam: 0.1, misroute: 0.05}',
+    '  maxPerRecord: 5',
+    `  seed: ${options.seed}`,
+    `model: {dir: ${options.modelDir}}`,
+    '',
+  ].join('\n');
+}
