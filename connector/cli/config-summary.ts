@@ -1,4 +1,5 @@
-import type { FramingConfig, LabelConfig, PrivacyGuardConfig, RaretideConfig } from '../../config/schema.js';
+import type { DeliveryConfig, FramingConfig, LabelConfig, PrivacyGuardConfig, RaretideConfig } from '../../config/schema.js';
+import { defaultStateTopic, transactionalIdFor } from '../kafka/client-settings.js';
 
 /**
  * A few human lines describing a validated config, one per section, so a user sees what raretide
@@ -35,6 +36,14 @@ function guardText(guard: PrivacyGuardConfig): string {
   return guard.scope === 'off' ? 'privacy guard off' : `privacy guard ${guard.scope}, min distance ${guard.minDistance}`;
 }
 
+/** The state topic and transactional id depend on the group; `run --instance-id` (default: host name) completes the id. */
+function deliveryText(delivery: DeliveryConfig, group: string | undefined): string {
+  const text = `${delivery.guarantee}, batches of ${delivery.batchSize}`;
+  if (group === undefined) return text;
+  const transactions = delivery.guarantee === 'exactly-once' ? `, transactional id ${transactionalIdFor(group, '<instance id>')}` : '';
+  return `${text}, class counts in ${delivery.stateTopic ?? defaultStateTopic(group)}${transactions}`;
+}
+
 function plural(count: number, noun: string): string {
   return `${count} ${noun}${count === 1 ? '' : 's'}`;
 }
@@ -63,7 +72,7 @@ function sectionLines(config: RaretideConfig): [string, string][] {
             .join(', ')}; k ≤ ${balance.maxPerRecord}, temperature ${balance.temperature}, seed ${balance.seed}, ${balance.counting.mode} counts`,
     ],
     ['rate cap', rateCap === undefined ? 'none' : `${rateCap.perSecond}/s, burst ${rateCap.burst}, ${rateCap.whenExceeded} when exceeded`],
-    ['delivery', `${delivery.guarantee}, batches of ${delivery.batchSize}`],
+    ['delivery', deliveryText(delivery, source?.group)],
     ['model', model === undefined ? NOT_SET : `${model.dir} (${guardText(model.privacyGuard)})`],
     ['fields', Object.keys(fields).length === 0 ? 'inferred' : `inferred, ${plural(Object.keys(fields).length, 'override')}`],
     ['training', `latent ${training.latent}, hidden [${training.hidden.join(', ')}], up to ${training.epochs} epochs`],
@@ -73,7 +82,11 @@ function sectionLines(config: RaretideConfig): [string, string][] {
 }
 
 export function renderConfigSummary(fileName: string, config: RaretideConfig): string {
-  const lines = sectionLines(config);
+  return alignedLines(`config ok: ${fileName}`, sectionLines(config));
+}
+
+/** A title line, then one indented `name  text` line per entry, the names padded to one width. */
+export function alignedLines(title: string, lines: readonly (readonly [string, string])[]): string {
   const width = Math.max(...lines.map(([name]) => name.length));
-  return [`config ok: ${fileName}`, ...lines.map(([name, text]) => `  ${name.padEnd(width)}  ${text}`)].join('\n') + '\n';
+  return [title, ...lines.map(([name, text]) => `  ${name.padEnd(width)}  ${text}`)].join('\n') + '\n';
 }

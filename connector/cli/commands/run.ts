@@ -18,7 +18,7 @@ interface RunOptions {
  * (bounded at 20 s themselves). Kubernetes' default termination grace period is 30 s (common practice),
  * so the worker exits on its own before it would be killed.
  */
-const STOP_DEADLINE_MS = 28_000;
+export const STOP_DEADLINE_MS = 28_000;
 
 /** Transactional ids allow any characters, but the id also appears in logs and client ids: keep it plain. */
 const INSTANCE_ID = /^[A-Za-z0-9._-]{1,200}$/;
