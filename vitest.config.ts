@@ -11,6 +11,8 @@ export default defineConfig({
           name: 'unit',
           include: ['test/unit/**/*.test.ts'],
           testTimeout: 60_000,
+          // Several files fit a small model in beforeAll: seconds alone, far more on a busy 2-core machine.
+          hookTimeout: 120_000,
         },
       },
       {

@@ -13,8 +13,7 @@ let model: SamplingModel;
 beforeAll(async () => {
   trained = await trainVae(MIXED_LAYOUT, data, { hidden: [32, 32], latent: 4, epochs: 15, batchSize: 128, warmupEpochs: 5, seed: 3 });
   model = { id: 'sampler-test-model', network: trained.network, layout: MIXED_LAYOUT };
-  // Training takes ~2 s alone; the default 10 s hook bound fails on a busy 2-core machine.
-}, 120_000);
+});
 
 afterAll(() => {
   trained?.network.dispose();
