@@ -1,10 +1,11 @@
 /**
  * What `fitModel` stores in the model directory beside the VAE (the `attachments` of the manifest,
  * covered by the model id): the feature codec, the Avro schema with its CRC-64-AVRO fingerprint, the
- * label path and the record counts. `readFitAttachments` is the one reader, so a model directory
- * written by something else is refused with a message instead of failing later.
+ * label path, the record counts and the drift reference. `readFitAttachments` is the one reader, so a
+ * model directory written by something else is refused with a message instead of failing later.
  */
 import { RaretideError } from '../config/errors.js';
+import type { DriftReference } from './drift/reference.js';
 import type { FeatureCodecJson } from './features/codec-json.js';
 import type { Attachments } from './vae/artifact.js';
 
@@ -32,6 +33,11 @@ export interface FitAttachments {
   /** Dotted path of the class field. */
   readonly labelPath: string;
   readonly records: FitRecordCounts;
+  /**
+   * Negative-ELBO quantiles of held-out rows, for the worker's drift metrics. Absent in models fitted
+   * before it existed: they load, without drift metrics (read it with `readDriftReference`).
+   */
+  readonly driftReference?: DriftReference;
 }
 
 /** The attachments as stored (plain JSON data). */

@@ -1,8 +1,9 @@
 /**
  * Fits a model to records of one Avro record schema: infers the feature codec from the first
  * records, encodes every record with its class (from the label field), trains the conditional VAE
- * and builds the privacy-guard reference. The result is what `saveModel` writes; the codec, the
- * schema and its fingerprint ride along as attachments (see fit-attachments.ts).
+ * and builds the privacy-guard reference and the drift reference (drift/reference.ts). The result is
+ * what `saveModel` writes; the codec, the schema and its fingerprint and the drift reference ride along
+ * as attachments (see fit-attachments.ts).
  *
  * Records stream through: only the codec's sample is held as objects; the rest are encoded as
  * they arrive, so memory grows with the feature rows, not with the records.
@@ -10,6 +11,7 @@
 import { UsageError } from '../config/errors.js';
 import type { FieldPolicy } from '../config/sections/fields.js';
 import { schemaFingerprint } from './avro/fingerprint.js';
+import { buildDriftReference } from './drift/reference.js';
 import type { AvroRecord, AvroSchemaJson } from './features/avro-types.js';
 import { FeatureCodec } from './features/feature-codec.js';
 import { fitAttachments, type FitRecordCounts } from './fit-attachments.js';
@@ -97,6 +99,7 @@ export async function fitModel(input: FitInput, options: FitOptions = {}): Promi
     ...(options.now === undefined ? {} : { now: options.now }),
   });
   const guard = buildGuardReference(data, { seed: hyperParameters.seed });
+  const driftReference = buildDriftReference(trained, data);
   const records = rows.counts();
   const attachments = fitAttachments({
     featureCodec: codec.toJSON(),
@@ -104,6 +107,7 @@ export async function fitModel(input: FitInput, options: FitOptions = {}): Promi
     schemaFingerprint: fingerprint,
     labelPath: input.labelPath,
     records,
+    driftReference,
   });
   return {
     bundle: { trained, guard, attachments },

@@ -11,6 +11,12 @@
  *
  * Offsets are committed only through the sink's checkpoints (this class is the sink's ConsumerGroupLink);
  * nothing is committed automatically or from the local offset store.
+ *
+ * Read-ahead: once a batch is handed out, the next `consume(n)` is started at once, so librdkafka's side
+ * of it (run on libuv's thread pool) overlaps the caller's work on the batch; turning the messages into
+ * JS objects still takes the main thread, when the call's callback runs. Its records are filtered by the
+ * assignment when they arrive and again when handed out; a revocation drops the ones of its partitions,
+ * and a rewind waits for it and discards it before seeking.
  */
 import Kafka, { type KafkaConsumer, type LibrdKafkaError, type Message, type TopicPartition as RdTopicPartition } from 'node-rdkafka';
 
@@ -41,6 +47,14 @@ export interface ConsumerSourceTimeouts {
 }
 
 const DEFAULT_TIMEOUTS: ConsumerSourceTimeouts = { connectMs: 30_000, seekMs: 10_000, closeMs: 30_000 };
+
+/** What one `consume` brought: the admitted records, or why it failed. */
+interface ReadAhead {
+  readonly records: readonly InputMessage[];
+  readonly failure: RaretideError | undefined;
+  /** `assignmentChanges` when the records were admitted. */
+  readonly assignmentChanges: number;
+}
 
 export interface ConsumerSourceOptions {
   readonly kafka: KafkaConfig;
@@ -75,6 +89,8 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   /** Partitions assigned to this member, and those whose revocation is under way. */
   private readonly assigned = new PartitionMap<true>();
   private readonly revoking = new PartitionMap<true>();
+  /** Counts changes to `assigned` and `revoking`, so records admitted since none need no second look. */
+  private assignmentChanges = 0;
   /**
    * Where to go back to after an abort: the positions of the last successful checkpoint (its commit may
    * still be unanswered — should it fail, only a restart reads those records again), else the first
@@ -85,6 +101,8 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   private rebalancing: Promise<void> = Promise.resolve();
   /** The latest `consume` call, settled or not (close waits for it). */
   private consuming: Promise<unknown> = Promise.resolve();
+  /** The read-ahead `consume` started after the last batch was handed out; never rejects. */
+  private ahead: Promise<ReadAhead> | undefined;
   private paused = false;
   /** Records that arrived although paused (librdkafka normally sends none); handed out after `resume`. */
   private held: InputMessage[] = [];
@@ -138,25 +156,48 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
     if (!this.paused && this.held.length > 0) {
       return this.held.splice(0, maxMessages).filter(({ topic, partition }) => this.mayHandOut(topic, partition));
     }
-    const messages = await this.consume(maxMessages);
+    const read = await (this.takeAhead() ?? this.read(maxMessages));
+    if (read.failure !== undefined) throw read.failure;
     this.raiseFailure();
-    const batch = this.admit(messages);
+    // Admitted when they arrived; a rebalance may have begun since.
+    const batch = read.assignmentChanges === this.assignmentChanges ? read.records : read.records.filter(({ topic, partition }) => this.mayHandOut(topic, partition));
     if (this.paused) {
       this.held.push(...batch);
       return [];
     }
-    return batch;
+    if (!this.closing) this.ahead = this.read(maxMessages);
+    // A read-ahead asked for the previous call's count; what exceeds this one's waits (nothing is held here).
+    if (batch.length > maxMessages) this.held = batch.slice(maxMessages);
+    return batch.length > maxMessages ? batch.slice(0, maxMessages) : batch;
+  }
+
+  private takeAhead(): Promise<ReadAhead> | undefined {
+    const ahead = this.ahead;
+    this.ahead = undefined;
+    return ahead;
+  }
+
+  /** One `consume`, admitted as it arrives; a failure is returned, not thrown (a read-ahead may go unclaimed). */
+  private read(maxMessages: number): Promise<ReadAhead> {
+    return this.consume(maxMessages).then(
+      (messages) => ({ records: this.admit(messages), failure: undefined, assignmentChanges: this.assignmentChanges }),
+      (failure: RaretideError) => ({ records: [], failure, assignmentChanges: this.assignmentChanges }),
+    );
   }
 
   /** The records of `messages` this member may hand out now, as InputMessages. */
   private admit(messages: readonly Message[]): InputMessage[] {
     const batch: InputMessage[] = [];
+    // A consume brings runs of one partition: the partition is looked up once per run.
+    let run: Message | undefined;
+    let admitted = false;
     for (const message of messages) {
-      const { topic, partition } = message;
-      if (!this.mayHandOut(topic, partition)) continue;
-      const input = toInputMessage(message);
-      if (!this.firstRead.has(topic, partition)) this.firstRead.set(topic, partition, input.offset);
-      batch.push(input);
+      if (run === undefined || message.partition !== run.partition || message.topic !== run.topic) {
+        run = message;
+        admitted = this.mayHandOut(message.topic, message.partition);
+        if (admitted && !this.firstRead.has(message.topic, message.partition)) this.firstRead.set(message.topic, message.partition, BigInt(message.offset));
+      }
+      if (admitted) batch.push(toInputMessage(message));
     }
     return batch;
   }
@@ -207,6 +248,9 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   }
 
   async rewindToCommitted(): Promise<void> {
+    // A consume still under way would hand out records from before the seek: let it finish, then drop them.
+    await this.consuming;
+    this.ahead = undefined;
     this.held = [];
     for (const { topic, partition } of this.assigned.keys()) {
       const target = this.lastCheckpointed.get(topic, partition) ?? this.firstRead.get(topic, partition);
@@ -282,6 +326,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   }
 
   private async revoke(partitions: TopicPartition[]): Promise<void> {
+    this.assignmentChanges += 1;
     for (const { topic, partition } of partitions) this.revoking.set(topic, partition, true);
     try {
       if (!this.closing) await this.listener?.revoked(partitions);
@@ -296,6 +341,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
         for (const map of [this.revoking, this.lastCheckpointed, this.firstRead]) map.delete(topic, partition);
       }
       this.held = this.held.filter((message) => this.assigned.has(message.topic, message.partition));
+      this.ahead = this.ahead?.then((read) => ({ ...read, records: read.records.filter((message) => this.assigned.has(message.topic, message.partition)) }));
       this.log({ level: 'info', message: 'partitions revoked', fields: { partitions: partitions.map(describePartition) } });
     }
   }
@@ -312,6 +358,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
     } catch (error) {
       if (!this.closing) this.fail(toKafkaError(add ? 'assigning partitions' : 'unassigning partitions', error));
     }
+    this.assignmentChanges += 1;
     for (const { topic, partition } of partitions) {
       if (add) this.assigned.set(topic, partition, true);
       else this.assigned.delete(topic, partition);

@@ -32,7 +32,7 @@ export const WORKER_METRICS = {
   syntheticSkipped: {
     name: 'raretide_synthetic_skipped_total',
     type: 'counter',
-    help: 'Synthetic records the balance wanted but not emitted, by class and reason: guard (too close to a real record), thinned (rate cap), invalid (failed the output schema).',
+    help: 'Synthetic records the balance wanted but not emitted, by class and reason: guard (too close to a real record), thinned (rate cap), invalid (refused by the record or output schema).',
     labels: ['class', 'reason'],
   },
   deadLetters: {
@@ -90,13 +90,31 @@ export const WORKER_METRICS = {
   driftElbo: {
     name: 'raretide_drift_elbo',
     type: 'gauge',
-    help: 'Mean negative ELBO of recent live records under the model, in nats; compare with raretide_drift_elbo_training.',
+    help: 'Median negative ELBO of the live records in the drift window (a keyed sample of the consumed records, the most recent kept), in nats; higher = less like the training data. Compare with raretide_drift_elbo_training. Absent for a model fitted without a drift reference.',
     labels: [],
   },
   driftElboTraining: {
     name: 'raretide_drift_elbo_training',
     type: 'gauge',
-    help: 'Mean negative ELBO of the training records, in nats: the reference for raretide_drift_elbo.',
+    help: 'Median negative ELBO of held-out training records, in nats (stored with the model at fit): the reference for raretide_drift_elbo.',
+    labels: [],
+  },
+  driftElboTrainingP99: {
+    name: 'raretide_drift_elbo_training_p99',
+    type: 'gauge',
+    help: '99th percentile of the negative ELBO of held-out training records, in nats: live records above it count as exceedances.',
+    labels: [],
+  },
+  driftExceedanceRatio: {
+    name: 'raretide_drift_exceedance_ratio',
+    type: 'gauge',
+    help: 'Share of the live records in the drift window whose negative ELBO exceeds raretide_drift_elbo_training_p99, 0 to 1; about 0.01 while the stream is like the training data. Sustained above 0.05 (5x the expected share; e.g. its 1-hour average), it suggests refitting the model on recent records (a rule of thumb, not a published value).',
+    labels: [],
+  },
+  driftWindowRecords: {
+    name: 'raretide_drift_window_records',
+    type: 'gauge',
+    help: 'Scored live records in the drift window; the exceedance ratio is coarse until the window is full.',
     labels: [],
   },
   residentMemory: {
@@ -128,7 +146,7 @@ export interface ClassFigures {
   readonly thinned: number;
   /** Dropped after sampling, by the privacy guard or the schema check; includes `invalid`. */
   readonly guardDropped: number;
-  /** Of `guardDropped`, those the output schema refused, when the caller can tell them apart. */
+  /** Of `guardDropped`, those the record or output schema refused, when the caller can tell them apart. */
   readonly invalid?: number;
 }
 
@@ -142,6 +160,14 @@ export interface BatchFigures {
   readonly modelRows: number;
   /** Duration of the model call in milliseconds. */
   readonly modelMs: number;
+}
+
+/** The drift window read against the model's reference: negative ELBO in nats. */
+export interface DriftWindowFigures {
+  readonly reference: { readonly p50: number; readonly p99: number };
+  readonly windowRecords: number;
+  readonly exceedanceRatio: number;
+  readonly medianNegativeElbo: number;
 }
 
 /** A class's current share of the output and its target (undefined for classes not oversampled). */
@@ -168,6 +194,9 @@ export class WorkerMetrics {
   readonly modelInfo: Gauge<'model_id' | 'backend'>;
   readonly driftElbo: Gauge<never>;
   readonly driftElboTraining: Gauge<never>;
+  readonly driftElboTrainingP99: Gauge<never>;
+  readonly driftExceedanceRatio: Gauge<never>;
+  readonly driftWindowRecords: Gauge<never>;
   readonly residentMemory: Gauge<never>;
   readonly eventLoopLagP99: Gauge<never>;
   readonly eventLoopLagMax: Gauge<never>;
@@ -189,6 +218,9 @@ export class WorkerMetrics {
     this.modelInfo = registry.gauge(m.modelInfo);
     this.driftElbo = registry.gauge(m.driftElbo);
     this.driftElboTraining = registry.gauge(m.driftElboTraining);
+    this.driftElboTrainingP99 = registry.gauge(m.driftElboTrainingP99);
+    this.driftExceedanceRatio = registry.gauge(m.driftExceedanceRatio);
+    this.driftWindowRecords = registry.gauge(m.driftWindowRecords);
     this.residentMemory = registry.gauge(m.residentMemory);
     this.eventLoopLagP99 = registry.gauge(m.eventLoopLagP99);
     this.eventLoopLagMax = registry.gauge(m.eventLoopLagMax);
@@ -246,9 +278,22 @@ export class WorkerMetrics {
     this.modelInfo.set({ model_id: modelId, backend }, 1);
   }
 
-  setDrift(liveMeanNegativeElbo: number, trainingMeanNegativeElbo: number): void {
-    this.driftElbo.set({}, liveMeanNegativeElbo);
-    this.driftElboTraining.set({}, trainingMeanNegativeElbo);
+  setDrift(liveMedianNegativeElbo: number, trainingMedianNegativeElbo: number): void {
+    this.driftElbo.set({}, liveMedianNegativeElbo);
+    this.driftElboTraining.set({}, trainingMedianNegativeElbo);
+  }
+
+  /** The drift window's figures against the model's reference (connector/pipeline/drift-monitor.ts). */
+  setDriftWindow(figures: DriftWindowFigures): void {
+    this.setDrift(figures.medianNegativeElbo, figures.reference.p50);
+    this.driftElboTrainingP99.set({}, figures.reference.p99);
+    this.driftExceedanceRatio.set({}, figures.exceedanceRatio);
+    this.driftWindowRecords.set({}, figures.windowRecords);
+  }
+
+  /** Drops the drift series: the model in use has no drift reference, or its window is empty again. */
+  clearDrift(): void {
+    for (const gauge of [this.driftElbo, this.driftElboTraining, this.driftElboTrainingP99, this.driftExceedanceRatio, this.driftWindowRecords]) gauge.clear();
   }
 
   setRuntime(sample: { readonly residentBytes: number; readonly loopLagP99Seconds: number; readonly loopLagMaxSeconds: number }): void {

@@ -15,8 +15,13 @@ export interface ClassTally {
   thinned: number;
   /** Synthetic records emitted. */
   synthetic: number;
-  /** Synthetic records planned but dropped by the privacy guard or the output schema check. */
+  /** Synthetic records planned but dropped by the privacy guard or a schema check. */
   guardDropped: number;
+  /**
+   * Of `guardDropped`, those a schema refused: the model's decode invalid under the record schema, or a
+   * record the output schema refuses. The rest were too close to a real record.
+   */
+  invalid: number;
   /** Source records of this class passed through to the output. */
   originalsEmitted: number;
 }
@@ -39,7 +44,7 @@ export interface BatchAccounting {
 }
 
 export function emptyTally(): ClassTally {
-  return { consumed: 0, planned: 0, thinned: 0, synthetic: 0, guardDropped: 0, originalsEmitted: 0 };
+  return { consumed: 0, planned: 0, thinned: 0, synthetic: 0, guardDropped: 0, invalid: 0, originalsEmitted: 0 };
 }
 
 export const NO_DROPS: GuardDrops = Object.freeze({ exactCopies: 0, nearSource: 0, nearClassRow: 0, invalid: 0 });

@@ -9,6 +9,7 @@ import type { Framing } from '../avro/framing.js';
 import type { PayloadDecoder } from '../avro/payload-decoder.js';
 import { BalanceController } from './balance.js';
 import { PipelineCore } from './core.js';
+import type { DecodedEntry } from './decode-stage.js';
 import { KeyedUniform } from './keyed-uniform.js';
 import { TokenBucket, type Clock } from './rate-limit.js';
 import type { Synthesizer } from './synthesizer.js';
@@ -17,6 +18,8 @@ export interface PipelineSettings {
   readonly label: LabelConfig;
   readonly balance: BalanceConfig;
   readonly includeOriginals: boolean;
+  /** See `PipelineCoreOptions.originalsAsRead`. @default false */
+  readonly originalsAsRead?: boolean;
   /** Input framing and reader schema. */
   readonly decoder: PayloadDecoder;
   readonly outputFraming: Framing;
@@ -25,6 +28,8 @@ export interface PipelineSettings {
   readonly rateCap?: RateCapConfig;
   /** For the rate cap and model timings. */
   readonly clock: Clock;
+  /** See `PipelineCoreOptions.onDecoded`. */
+  readonly onDecoded?: (entries: readonly DecodedEntry[]) => void;
 }
 
 export interface AssembledPipeline {
@@ -49,8 +54,10 @@ export function assemblePipeline(settings: PipelineSettings): AssembledPipeline 
     synthesizer: settings.synthesizer,
     sampling: { seed: balanceConfig.seed, temperature: balanceConfig.temperature },
     includeOriginals: settings.includeOriginals,
+    originalsAsRead: settings.originalsAsRead === true,
     ...(bucket !== undefined && rateCap?.whenExceeded === 'thin' ? { thinning: bucket } : {}),
     clock,
+    onDecoded: settings.onDecoded,
   });
   return { core, balance, rateWait: rateCap?.whenExceeded === 'wait' ? bucket : undefined };
 }

@@ -174,7 +174,14 @@ export class BalanceController {
    * and k. Every record's partition must be assigned; the batch is checked before anything is counted.
    */
   planBatch(records: readonly BalanceRecord[], grant?: GrantSynthetic): RecordPlan[] {
-    const entries = records.map((record) => this.countsFor(record));
+    // All counts are looked up first, so an unassigned partition fails the batch before anything is counted.
+    // Batches come in runs of one partition: the counts are looked up once per run.
+    const entries = new Array<PartitionCounts>(records.length);
+    for (let index = 0; index < records.length; index++) {
+      const record = records[index]!;
+      const previous = records[index - 1];
+      entries[index] = previous !== undefined && previous.partition === record.partition && previous.topic === record.topic ? entries[index - 1]! : this.countsFor(record);
+    }
     const plans = new Array<RecordPlan>(records.length);
     for (let index = 0; index < records.length; index++) {
       const record = records[index]!;

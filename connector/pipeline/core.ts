@@ -44,10 +44,18 @@ export interface PipelineCoreOptions {
   readonly sampling: SamplingSettings;
   /** Pass every labelled original through to the output (a balanced copy of the stream). */
   readonly includeOriginals: boolean;
+  /**
+   * Originals keep the bytes they came in, not framed again: only where that gives the same record
+   * (`originalsPassUnchanged`).
+   * @default false
+   */
+  readonly originalsAsRead?: boolean;
   /** Rate cap with policy `thin`: k is lowered to the tokens available. Absent: no thinning. */
   readonly thinning?: TokenBucket;
   /** Times the model call. @default performance.now */
   readonly clock?: Clock;
+  /** Shown every batch once decoded and labelled (the worker's drift monitor samples from it). */
+  readonly onDecoded?: (entries: readonly DecodedEntry[]) => void;
 }
 
 export interface BatchResult {
@@ -72,6 +80,7 @@ export class PipelineCore {
   async processBatch(messages: readonly InputMessage[]): Promise<BatchResult> {
     const { balance, synthesizer, sampling, outputFraming } = this.options;
     const entries = await decodeStage(messages, this.options.decoder, this.readLabel);
+    this.options.onDecoded?.(entries);
     const plans = planStage(balance, entries, this.options.thinning);
     const sampled = await sampleStage(synthesizer, entries, plans, sampling, this.clock);
     const guarded = guardStage(outputFraming, sampled.variants);
@@ -82,6 +91,7 @@ export class PipelineCore {
     const outputs = emitStage(entries, guarded.framed, {
       framing: outputFraming,
       includeOriginals: this.options.includeOriginals,
+      originalsAsRead: this.options.originalsAsRead === true,
       modelId: synthesizer.modelId,
       seed: BigInt(sampling.seed),
       temperature: sampling.temperature,
@@ -105,8 +115,13 @@ export class PipelineCore {
       tally.thinned += plan.thinned;
       tally.synthetic += emitted;
       tally.guardDropped += plan.k - emitted;
+      // The output schema check drops only what it refuses: the rest of the model's variants were framed.
+      tally.invalid += sampled.variants[index]!.length - emitted;
       if (this.options.includeOriginals) tally.originalsEmitted += 1;
     });
+    for (const [label, invalid] of Object.entries(sampled.invalidByClass ?? {})) {
+      if (invalid > 0) (byClass[label] ??= emptyTally()).invalid += invalid;
+    }
     return {
       records: entries.length,
       byClass,

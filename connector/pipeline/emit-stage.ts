@@ -3,7 +3,7 @@ import type { Framing } from '../avro/framing.js';
 import { deadLetter } from './dead-letter.js';
 import type { DecodedEntry } from './decode-stage.js';
 import type { FramedVariant } from './guard-stage.js';
-import { toHeaders } from './provenance.js';
+import { ProvenanceHeaderWriter } from './provenance-headers.js';
 import type { OutputMessage } from './source-sink.js';
 import { describePartition } from './topic-partition.js';
 
@@ -11,6 +11,8 @@ export interface EmitOptions {
   /** The output framing, for originals passed through. */
   readonly framing: Framing;
   readonly includeOriginals: boolean;
+  /** Originals go out in the bytes they came in (see original-bytes.ts) instead of framed again. */
+  readonly originalsAsRead: boolean;
   readonly modelId: string;
   readonly seed: bigint;
   readonly temperature: number;
@@ -24,6 +26,7 @@ export interface EmitOptions {
  */
 export function emitStage(entries: readonly DecodedEntry[], framed: readonly (readonly FramedVariant[])[], options: EmitOptions): OutputMessage[] {
   const outputs: OutputMessage[] = [];
+  const tags = new ProvenanceHeaderWriter(options);
   entries.forEach((entry, index) => {
     const { message } = entry;
     if (entry.kind === 'rejected') {
@@ -31,29 +34,25 @@ export function emitStage(entries: readonly DecodedEntry[], framed: readonly (re
       return;
     }
     const source = { topic: message.topic, partition: message.partition, offset: message.offset };
+    const variants = framed[index]!;
+    if (!options.includeOriginals && variants.length === 0) return;
+    const sourceHeaders = tags.source(source);
     if (options.includeOriginals) {
       outputs.push({
         route: 'output',
-        value: frameOriginal(options.framing, entry.record, message),
+        value: options.originalsAsRead ? message.value : frameOriginal(options.framing, entry.record, message),
         key: message.key,
-        headers: toHeaders({ kind: 'original', source }),
+        headers: tags.original(sourceHeaders),
         timestamp: message.timestamp,
         source,
       });
     }
-    for (const variant of framed[index]!) {
+    for (const variant of variants) {
       outputs.push({
         route: 'output',
         value: variant.payload,
         key: message.key,
-        headers: toHeaders({
-          kind: 'synthetic',
-          source,
-          modelId: options.modelId,
-          sampleIndex: variant.sampleIndex,
-          seed: options.seed,
-          temperature: options.temperature,
-        }),
+        headers: tags.synthetic(sourceHeaders, variant.sampleIndex),
         timestamp: message.timestamp,
         source,
       });

@@ -5,7 +5,7 @@
  */
 import type { PrivacyGuardConfig } from '../../config/sections/model.js';
 import type { AvroRecord } from '../../model/features/avro-types.js';
-import { synthesize } from '../../model/synthesize.js';
+import { synthesize, type SynthesisResult as ModelSynthesisResult } from '../../model/synthesize.js';
 import { loadTrainedModel, type TrainedModel } from '../../model/trained-model.js';
 import type { SynthesisOptions, SynthesisRequest, SynthesisResult, Synthesizer, SyntheticVariant } from './synthesizer.js';
 
@@ -29,17 +29,40 @@ export class ModelSynthesizer implements Synthesizer {
   }
 
   synthesize(requests: readonly SynthesisRequest[], options: SynthesisOptions): SynthesisResult {
+    const result = this.run(requests, options);
+    const variants: SyntheticVariant[][] = requests.map(() => []);
+    for (const { sourceIndex, sampleIndex, record } of result.records) variants[sourceIndex]!.push({ sampleIndex, record });
+    const { exactCopies, nearSource, nearClassRow, invalid } = result.counts;
+    return { variants, dropped: { exactCopies, nearSource, nearClassRow, invalid }, invalidByClass: this.invalidByClass(requests, options, invalid) };
+  }
+
+  /**
+   * The model counts decodes its record schema refuses per call, not per record. Such decodes are not
+   * expected at all, so the split by class is worked out only when there are some, by making the
+   * variants of all classes but one again: a variant depends on its own record alone (its random
+   * streams are keyed by the record's position), so the second call makes the same decodes.
+   */
+  private invalidByClass(requests: readonly SynthesisRequest[], options: SynthesisOptions, invalid: number): Record<string, number> {
+    const labels = [...new Set(requests.map((request) => request.label))];
+    const byClass: Record<string, number> = {};
+    let unattributed = invalid;
+    for (const label of labels.slice(0, -1)) {
+      byClass[label] = invalid === 0 ? 0 : this.run(requests.filter((request) => request.label === label), options).counts.invalid;
+      unattributed -= byClass[label];
+    }
+    const last = labels.at(-1);
+    if (last !== undefined) byClass[last] = unattributed;
+    return byClass;
+  }
+
+  private run(requests: readonly SynthesisRequest[], options: SynthesisOptions): ModelSynthesisResult {
     const sources = requests.map((request) => ({
       record: request.record as AvroRecord,
       className: request.label,
       key: request.key,
       k: request.k,
     }));
-    const result = synthesize(this.model, sources, { temperature: options.temperature, seed: options.seed, privacyGuard: this.privacyGuard });
-    const variants: SyntheticVariant[][] = requests.map(() => []);
-    for (const { sourceIndex, sampleIndex, record } of result.records) variants[sourceIndex]!.push({ sampleIndex, record });
-    const { exactCopies, nearSource, nearClassRow, invalid } = result.counts;
-    return { variants, dropped: { exactCopies, nearSource, nearClassRow, invalid } };
+    return synthesize(this.model, sources, { temperature: options.temperature, seed: options.seed, privacyGuard: this.privacyGuard });
   }
 
   dispose(): void {

@@ -3,18 +3,35 @@
  * (holding them back under the rate cap's `wait` policy), checkpoint positions with the balance state,
  * repeat. Partitions coming and going restore and persist their balance counts through the sink.
  *
- * Stopping: an aborted `signal` ends the loop after the batch in hand is sent and checkpointed. A failed
- * checkpoint aborts what the sink holds uncommitted and surfaces a retriable error: the caller resumes
- * from the last checkpoint, restoring the balance counts saved with it.
+ * A checkpoint runs while the next batch is read and processed: waiting for the broker's
+ * acknowledgements (or a transaction's commit) was the longest step of a batch, and the next read and
+ * model call do not depend on it. Outputs are sent only once the previous checkpoint has succeeded, so
+ * a sink never holds two checkpoints' outputs (one open transaction, one delivery interval at a time).
+ * Batches processed while a checkpoint still runs wait and go out together, checkpointed as one
+ * (checkpoint-group.ts), up to `MAX_GROUP_BATCHES`. The balance state is snapshotted at every batch
+ * boundary as before, so the outputs, their order and their provenance are those of a one-batch-at-a-time
+ * loop; only how many batches one checkpoint covers depends on timing.
+ *
+ * Stopping: an aborted `signal` ends the loop once the batches processed are sent and checkpointed; a
+ * batch read but not yet processed is dropped, uncommitted, for the next reader. A failed checkpoint
+ * aborts what the sink holds uncommitted and surfaces a retriable error: the caller resumes from the
+ * last checkpoint, restoring the balance counts saved with it (batches processed since are discarded
+ * with the session's controller).
  */
 import { RaretideError } from '../../config/errors.js';
-import { PipelineCounters, type BatchAccounting } from './accounting.js';
+import { PipelineCounters } from './accounting.js';
 import type { BalanceController } from './balance.js';
+import { CheckpointGroup, type BatchReport } from './checkpoint-group.js';
 import type { PipelineCore } from './core.js';
 import { PROVENANCE_HEADERS } from './provenance.js';
 import type { TokenBucket } from './rate-limit.js';
-import type { BatchSink, BatchSource, Checkpoint, InputMessage, OutputMessage, SourcePosition } from './source-sink.js';
-import { comparePartitions, partitionKey, type TopicPartition } from './topic-partition.js';
+import type { BatchSink, BatchSource, InputMessage, OutputMessage } from './source-sink.js';
+import { partitionKey, type TopicPartition } from './topic-partition.js';
+
+export type { BatchReport } from './checkpoint-group.js';
+
+/** Most batches one checkpoint covers: bounds what waits in memory while the sink is slow. */
+export const MAX_GROUP_BATCHES = 4;
 
 /** The runner neither opens nor closes the source and sink: the command that made them does. */
 export interface RunnerOptions {
@@ -33,14 +50,8 @@ export interface RunnerOptions {
   readonly signal?: AbortSignal;
   /** Where totals accumulate (pass one to read them while running). @default a new one */
   readonly counters?: PipelineCounters;
-  /** Called after each checkpointed batch. */
+  /** Called for each batch once it is checkpointed. */
   readonly onBatch?: (report: BatchReport) => void;
-}
-
-export interface BatchReport {
-  readonly accounting: BatchAccounting;
-  readonly outputs: number;
-  readonly positions: readonly SourcePosition[];
 }
 
 export interface RunOutcome {
@@ -52,8 +63,13 @@ export interface RunOutcome {
 export class PipelineRunner {
   readonly counters: PipelineCounters;
   private readonly sleep: (ms: number) => Promise<void>;
-  /** The batch being processed, sent and checkpointed; a revocation waits for it. */
-  private inFlight: Promise<void> = Promise.resolve();
+  /** Every batch handed out so far, checkpointed (or failed); a revocation waits for it. */
+  private inFlight: Promise<unknown> = Promise.resolve();
+  /** Batches processed and not yet sent. */
+  private waiting: CheckpointGroup | undefined;
+  /** The last checkpoint: settles with its failure, or undefined once it succeeded. */
+  private checkpointing: Promise<Error | undefined> = Promise.resolve(undefined);
+  private checkpointRunning = false;
 
   constructor(private readonly options: RunnerOptions) {
     this.counters = options.counters ?? new PipelineCounters();
@@ -66,34 +82,78 @@ export class PipelineRunner {
 
   async run(): Promise<RunOutcome> {
     const { source, batchSize, signal } = this.options;
-    while (signal?.aborted !== true) {
-      const batch = await source.nextBatch(batchSize);
-      if (batch === null) return { stoppedBy: 'end-of-source', counters: this.counters };
-      if (batch.length === 0) continue;
-      this.inFlight = this.handle(batch);
-      await this.inFlight;
+    let stoppedBy: RunOutcome['stoppedBy'] = 'signal';
+    const stopping = () => signal?.aborted === true;
+    try {
+      while (!stopping()) {
+        const batch = await source.nextBatch(batchSize);
+        if (batch === null) {
+          stoppedBy = 'end-of-source';
+          break;
+        }
+        if (stopping()) break;
+        if (batch.length > 0) await this.process(batch);
+        const waiting = this.waiting;
+        if (waiting === undefined) continue;
+        // Grow the group while the last checkpoint runs; send it once that is done, when full, or when idle.
+        if (batch.length === 0 || !this.checkpointRunning || waiting.reports.length >= MAX_GROUP_BATCHES) await this.sendWaiting();
+      }
+      await this.sendWaiting();
+      await raise(this.checkpointing);
+    } catch (error) {
+      // Nothing may outlive the loop: the caller closes the sink next. A failed checkpoint came first.
+      const failure = await this.checkpointing;
+      this.waiting?.finish();
+      throw failure ?? error;
     }
-    return { stoppedBy: 'signal', counters: this.counters };
+    return { stoppedBy, counters: this.counters };
   }
 
-  private async handle(batch: readonly InputMessage[]): Promise<void> {
-    const { core, sink, balance } = this.options;
-    const { outputs, accounting } = await core.processBatch(batch);
-    await this.send(outputs);
-    const checkpoint: Checkpoint = { positions: positionsOf(batch), state: balance.snapshot() };
+  /** Runs `batch` through the core into the waiting group, with the balance state right after it. */
+  private async process(batch: readonly InputMessage[]): Promise<void> {
+    const { core, balance } = this.options;
+    const group = (this.waiting ??= new CheckpointGroup());
+    this.inFlight = group.settled;
+    const result = await core.processBatch(batch);
+    // Every batch boundary gets its snapshot (a snapshot rebases the counts), persisted or not.
+    group.add(batch, result, balance.snapshot());
+  }
+
+  /** Once the last checkpoint succeeded: sends the waiting group and starts its checkpoint, not waiting for it. */
+  private async sendWaiting(): Promise<void> {
+    const group = this.waiting;
+    if (group === undefined) return;
+    await raise(this.checkpointing);
+    await this.send(group.outputs);
+    this.waiting = undefined;
+    this.checkpointRunning = true;
+    this.checkpointing = this.checkpoint(group).then(
+      () => undefined,
+      (error: Error) => error,
+    );
+    void this.checkpointing.then(() => {
+      this.checkpointRunning = false;
+      group.finish();
+    });
+  }
+
+  private async checkpoint(group: CheckpointGroup): Promise<void> {
+    const { sink } = this.options;
     try {
-      await sink.checkpoint(checkpoint);
+      await sink.checkpoint(group.checkpoint());
     } catch (cause) {
       await sink.abort();
       throw new RaretideError(
         'pipeline.checkpoint-failed',
-        `Checkpoint after ${batch.length} records failed (${(cause as Error).message}); the outputs since the last checkpoint were aborted. Resume from the last checkpoint, with the balance state saved there.`,
+        `Checkpoint after ${group.records} records failed (${(cause as Error).message}); the outputs since the last checkpoint were aborted. Resume from the last checkpoint, with the balance state saved there.`,
         { retriable: true, cause },
       );
     }
-    this.counters.add(accounting);
     this.counters.checkpoints += 1;
-    this.options.onBatch?.({ accounting, outputs: outputs.length, positions: checkpoint.positions });
+    for (const report of group.reports) {
+      this.counters.add(report.accounting);
+      this.options.onBatch?.(report);
+    }
   }
 
   /**
@@ -143,26 +203,10 @@ export class PipelineRunner {
   }
 }
 
-/** Next offset per partition of the batch, in partition order. */
-export function positionsOf(batch: readonly InputMessage[]): SourcePosition[] {
-  const highest = new Map<string, InputMessage>();
-  const settle = (message: InputMessage) => {
-    const key = partitionKey(message);
-    const current = highest.get(key);
-    if (current === undefined || message.offset > current.offset) highest.set(key, message);
-  };
-  // Runs of one partition are the common case: the map is consulted once per run, not per message.
-  let run: InputMessage | undefined;
-  for (const message of batch) {
-    if (run !== undefined && run.partition === message.partition && run.topic === message.topic) {
-      if (message.offset > run.offset) run = message;
-      continue;
-    }
-    if (run !== undefined) settle(run);
-    run = message;
-  }
-  if (run !== undefined) settle(run);
-  return [...highest.values()].map(({ topic, partition, offset }) => ({ topic, partition, nextOffset: offset + 1n })).sort(comparePartitions);
+/** Throws the failure a settled checkpoint promise carries, if any. */
+async function raise(checkpointing: Promise<Error | undefined>): Promise<void> {
+  const failure = await checkpointing;
+  if (failure !== undefined) throw failure;
 }
 
 function isSynthetic(message: OutputMessage): boolean {

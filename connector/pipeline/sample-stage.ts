@@ -8,6 +8,8 @@ export interface SampleOutcome {
   /** Per batch entry: the variants the model kept (none for records with k = 0 and dead letters). */
   readonly variants: readonly (readonly SyntheticVariant[])[];
   readonly dropped: ModelGuardCounts;
+  /** `dropped.invalid` by class, when the synthesizer tells (see `SynthesisResult`). */
+  readonly invalidByClass: Readonly<Record<string, number>> | undefined;
   /** Rows sent to the model. */
   readonly rows: number;
   readonly elapsedMs: number;
@@ -33,7 +35,7 @@ export async function sampleStage(
     positions.push(index);
   });
   const variants: (readonly SyntheticVariant[])[] = entries.map(() => NONE);
-  if (requests.length === 0) return { variants, dropped: NO_GUARD_DROPS, rows: 0, elapsedMs: 0 };
+  if (requests.length === 0) return { variants, dropped: NO_GUARD_DROPS, invalidByClass: undefined, rows: 0, elapsedMs: 0 };
 
   const started = clock.now();
   const result = await synthesizer.synthesize(requests, options);
@@ -45,7 +47,7 @@ export async function sampleStage(
     checkVariants(rowVariants, requests[row]!.k, synthesizer.modelId);
     variants[positions[row]!] = rowVariants;
   });
-  return { variants, dropped: result.dropped, rows: requests.length, elapsedMs };
+  return { variants, dropped: result.dropped, invalidByClass: result.invalidByClass, rows: requests.length, elapsedMs };
 }
 
 /** Sample indices must rise within 0…k−1: provenance and output order depend on it. */

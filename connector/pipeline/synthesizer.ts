@@ -48,6 +48,8 @@ export interface SynthesisResult {
   /** Per request, in request order: the kept variants in sample-index order. */
   readonly variants: readonly (readonly SyntheticVariant[])[];
   readonly dropped: ModelGuardCounts;
+  /** `dropped.invalid` by class of the request; absent when the synthesizer cannot tell (counted as guard drops then). */
+  readonly invalidByClass?: Readonly<Record<string, number>>;
 }
 
 export interface Synthesizer {

@@ -14,6 +14,7 @@ import {
   classDrawWeights,
   gatherRows,
   stratifiedSplit,
+  type Split,
   type TrainingData,
 } from './dataset.js';
 import { resolveHyperParameters, type VaeHyperParameters } from './hyperparameters.js';
@@ -96,7 +97,7 @@ export async function trainVae(
   // Independent streams for init, split and batches, so changing one use does not shift the others.
   const seed = BigInt(hp.seed);
   const network = new ConditionalVae(topologyFor(layout, classCount, hp), mix64(seed ^ 0x1n));
-  const split = stratifiedSplit(data.classes, classCount, hp.validationFraction, createPrng(mix64(seed ^ 0x2n)));
+  const split = trainingSplit(data, hp);
   const trainCounts = split.train.map((rows) => rows.length);
   const trainRowTotal = trainCounts.reduce((sum, count) => sum + count, 0);
   if (trainRowTotal === 0) throw new UsageError('no training rows: fit needs at least one record');
@@ -273,4 +274,12 @@ export function effectiveBatchSize(configured: number, trainRows: number): numbe
   let size = configured;
   while (size > MIN_BATCH_SIZE && trainRows / size < MIN_STEPS_PER_EPOCH) size = Math.max(MIN_BATCH_SIZE, size >> 1);
   return size;
+}
+
+/**
+ * The stratified train/validation split `trainVae` uses, from its own seed stream (`seed ^ 2`); exported
+ * so the rows it held out can be found again (the drift reference scores them).
+ */
+export function trainingSplit(data: TrainingData, hp: Pick<VaeHyperParameters, 'seed' | 'validationFraction'>): Split {
+  return stratifiedSplit(data.classes, data.classNames.length, hp.validationFraction, createPrng(mix64(BigInt(hp.seed) ^ 0x2n)));
 }

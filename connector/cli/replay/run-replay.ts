@@ -15,6 +15,7 @@ import { PayloadDecoder } from '../../avro/payload-decoder.js';
 import type { FileProvenance } from '../../files/container-sink.js';
 import { assemblePipeline } from '../../pipeline/assemble.js';
 import { ModelSynthesizer } from '../../pipeline/model-synthesizer.js';
+import { originalsPassUnchanged } from '../../pipeline/original-bytes.js';
 import type { Clock } from '../../pipeline/rate-limit.js';
 import { PipelineRunner } from '../../pipeline/runner.js';
 import type { CliContext } from '../cli-context.js';
@@ -69,6 +70,7 @@ export async function runReplay(request: ReplayRequest, effects: ReplayEffects):
       label: config.label,
       balance: balanceConfig,
       includeOriginals,
+      originalsAsRead: originalsPassUnchanged(input.framing, output.framing, reader),
       decoder: new PayloadDecoder(input.framing, { reader }),
       outputFraming: output.framing,
       synthesizer,

@@ -20,12 +20,15 @@ import { Heartbeat, ReadinessGate } from '../../ops/probes.js';
 import { RuntimeSampler, sampleRuntimeOnScrape } from '../../ops/runtime-sampler.js';
 import { WorkerMetrics } from '../../ops/worker-metrics.js';
 import { PipelineCounters } from '../../pipeline/accounting.js';
+import { DriftMonitor } from '../../pipeline/drift-monitor.js';
 import type { ClassShare } from '../../pipeline/balance.js';
 import { ModelSynthesizer } from '../../pipeline/model-synthesizer.js';
+import { originalsPassUnchanged } from '../../pipeline/original-bytes.js';
 import type { Clock } from '../../pipeline/rate-limit.js';
 import type { CliContext } from '../cli-context.js';
 import { readerSchema } from '../replay/run-replay.js';
 import type { RunConfig } from './kafka-endpoints.js';
+import { followModelForDrift } from './drift-hook.js';
 import { ModelWatcher, type ModelCheck } from './model-watch.js';
 import { backoffMs, DEFAULT_BACKOFF, waitUnlessAborted, type BackoffSettings } from './reconnect-backoff.js';
 import { SwappableSynthesizer } from './swappable-synthesizer.js';
@@ -132,6 +135,8 @@ export async function startWorker(request: RunRequest, effects: RunEffects): Pro
       includeOriginals: config.sink.includeOriginals,
       backend: activeBackendName(),
     });
+    const drift = new DriftMonitor();
+    followModelForDrift(drift, loaded.model, metrics, log);
 
     const watcher = modelWatcher(config, synthesizer, reader, log, timings.modelPollMs);
     const sessionContext: SessionContext = {
@@ -139,7 +144,9 @@ export async function startWorker(request: RunRequest, effects: RunEffects): Pro
       instanceId: request.instanceId,
       decoder: new PayloadDecoder(framings.input, { reader }),
       outputFraming: framings.output,
+      originalsAsRead: originalsPassUnchanged(framings.input, framings.output, reader),
       synthesizer,
+      drift,
       counters: new PipelineCounters(),
       metrics,
       heartbeat,

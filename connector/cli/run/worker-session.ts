@@ -19,6 +19,8 @@ import type { Clock } from '../../pipeline/rate-limit.js';
 import { PipelineRunner, type BatchReport } from '../../pipeline/runner.js';
 import { describePartition, type TopicPartition } from '../../pipeline/topic-partition.js';
 import { closeKafkaEndpoints, openKafkaEndpoints, prepareTopics, type KafkaEndpoints, type RunConfig } from './kafka-endpoints.js';
+import type { DriftMonitor } from '../../pipeline/drift-monitor.js';
+import { followModelForDrift, observeForDrift, publishDrift } from './drift-hook.js';
 import { LagPoller } from './lag-poller.js';
 import { ObservedSource } from './observed-source.js';
 import type { SwappableSynthesizer } from './swappable-synthesizer.js';
@@ -32,7 +34,11 @@ export interface SessionContext {
   readonly instanceId: string;
   readonly decoder: PayloadDecoder;
   readonly outputFraming: Framing;
+  /** Originals passed through keep their bytes (see pipeline/original-bytes.ts). */
+  readonly originalsAsRead: boolean;
   readonly synthesizer: SwappableSynthesizer<ModelSynthesizer>;
+  /** Scores a sample of the records under the model in use (see drift-hook.ts). */
+  readonly drift: DriftMonitor;
   readonly counters: PipelineCounters;
   readonly metrics: WorkerMetrics;
   readonly heartbeat: Heartbeat;
@@ -77,11 +83,13 @@ export class WorkerSession {
       label: config.label,
       balance: config.balance,
       includeOriginals: config.sink.includeOriginals,
+      originalsAsRead: context.originalsAsRead,
       decoder: context.decoder,
       outputFraming: context.outputFraming,
       synthesizer: context.synthesizer,
       ...(config.rateCap === undefined ? {} : { rateCap: config.rateCap }),
       clock: context.clock,
+      onDecoded: (entries) => observeForDrift(context.drift, entries, context.metrics, context.log),
     });
     let observed: ObservedSource | undefined;
     const hooks = {
@@ -153,6 +161,7 @@ export class WorkerSession {
     this.batches += 1;
     metrics.recordBatch(report.accounting);
     metrics.setClassShares(this.pipeline.balance.shares());
+    publishDrift(this.context.drift, metrics);
     const waited = counters.rateWaitMs - this.rateWaitMsSeen;
     if (waited > 0) metrics.addRateCapWait(waited / 1000);
     this.rateWaitMsSeen = counters.rateWaitMs;
@@ -173,6 +182,7 @@ export class WorkerSession {
     if (swap === undefined) return;
     context.metrics.setModel(swap.to, activeBackendName());
     context.log.info(`model ${swap.to} now makes the synthetic records (was ${swap.from})`, { modelId: swap.to, previousModelId: swap.from });
+    followModelForDrift(context.drift, context.synthesizer.current.model, context.metrics, context.log);
   }
 
   /** Logs the restored counts, so a restart that lost them shows at once. */

@@ -7,7 +7,7 @@ import { PipelineCore } from '../../../connector/pipeline/core.js';
 import { KeyedUniform } from '../../../connector/pipeline/keyed-uniform.js';
 import { PROVENANCE_HEADERS } from '../../../connector/pipeline/provenance.js';
 import { TokenBucket } from '../../../connector/pipeline/rate-limit.js';
-import { PipelineRunner, type RunnerOptions } from '../../../connector/pipeline/runner.js';
+import { MAX_GROUP_BATCHES, PipelineRunner, type BatchReport, type RunnerOptions } from '../../../connector/pipeline/runner.js';
 import type {
   AssignmentListener,
   BatchSink,
@@ -30,7 +30,8 @@ class MemorySource implements BatchSource {
   listener: AssignmentListener | undefined;
   paused = false;
   readonly pauses: boolean[] = [];
-  private index = 0;
+  /** Batches handed out so far. */
+  index = 0;
 
   constructor(
     private readonly batches: readonly (readonly InputMessage[])[],
@@ -66,6 +67,8 @@ class MemorySink implements BatchSink {
   aborted = 0;
   failCheckpoint = false;
   holdSend: Promise<void> | undefined;
+  /** Holds checkpoints open while set (the broker's acknowledgements taking long). */
+  holdCheckpoint: Promise<void> | undefined;
   readonly stored = new Map<string, PartitionBalanceState>();
 
   async loadState(partitions: readonly TopicPartition[]): Promise<(PartitionBalanceState | undefined)[]> {
@@ -78,6 +81,7 @@ class MemorySink implements BatchSink {
   }
 
   async checkpoint(checkpoint: Checkpoint): Promise<void> {
+    await this.holdCheckpoint;
     if (this.failCheckpoint) throw new Error('broker said no');
     this.checkpoints.push(checkpoint);
   }
@@ -229,5 +233,56 @@ describe('PipelineRunner', () => {
     expect(source.pauses[0]).toBe(true);
     expect(source.pauses.at(-1)).toBe(false);
     expect(runner.counters.rateWaitMs).toBe(sleeps.reduce((a, b) => a + b, 0));
+  });
+
+  it('while a checkpoint runs, processes the next batches and sends them together, checkpointed as one', async () => {
+    const messages = messagesOf(sorterEvents(1000, { jam: 0.03 }, 8), 2);
+    const reference = new MemorySink();
+    await runnerFor(new MemorySource(batchesOf(messages, 100), [P0, P1]), reference).runner.run();
+
+    const source = new MemorySource(batchesOf(messages, 100), [P0, P1]);
+    const sink = new MemorySink();
+    let release: () => void = () => undefined;
+    const reports: BatchReport[] = [];
+    const { runner } = runnerFor(source, sink, { onBatch: (report) => reports.push(report) });
+    // The first checkpoint waits until released: meanwhile the runner reads on and groups what it processes.
+    sink.holdCheckpoint = new Promise((resolve) => (release = resolve));
+    const running = runner.run();
+    await waitFor(() => source.index === 1 + MAX_GROUP_BATCHES, { what: 'a full group behind the held checkpoint', timeoutMs: 5000, intervalMs: 1 });
+    // A full group waits for the checkpoint before anything else is read; nothing of it was sent yet.
+    await new Promise((resolve) => setImmediate(resolve));
+    expect([source.index, sink.sent.length, reports.length]).toEqual([1 + MAX_GROUP_BATCHES, 1, 0]);
+    sink.holdCheckpoint = undefined;
+    release();
+    const outcome = await running;
+
+    // The same outputs in the same order as checkpointing batch by batch; fewer, larger checkpoints.
+    expect(sink.sent.flat()).toEqual(reference.sent.flat());
+    expect(sink.sent[1]).toHaveLength(reference.sent.slice(1, 1 + MAX_GROUP_BATCHES).flat().length);
+    expect(sink.checkpoints.length).toBeLessThan(reference.checkpoints.length);
+    expect(sink.checkpoints[1]).toEqual(reference.checkpoints[MAX_GROUP_BATCHES]);
+    expect(sink.checkpoints.at(-1)).toEqual(reference.checkpoints.at(-1));
+    // Every batch is still reported, in order, once its group is checkpointed.
+    expect(reports.map((report) => report.positions)).toEqual(reference.checkpoints.map((checkpoint) => checkpoint.positions));
+    expect(outcome.counters.records).toBe(1000);
+    expect(outcome.counters.checkpoints).toBe(sink.checkpoints.length);
+  });
+
+  it('surfaces a failed checkpoint even while later batches wait in a group, and sends none of them', async () => {
+    const messages = messagesOf(sorterEvents(300, {}, 9));
+    const source = new MemorySource(batchesOf(messages, 100), [P0]);
+    const sink = new MemorySink();
+    let release: () => void = () => undefined;
+    sink.holdCheckpoint = new Promise((resolve) => (release = resolve));
+    const { runner } = runnerFor(source, sink);
+    const running = runner.run().catch((caught: unknown) => caught);
+    await waitFor(() => source.index >= 2, { what: 'a second batch behind the held checkpoint', timeoutMs: 5000, intervalMs: 1 });
+    sink.failCheckpoint = true;
+    release();
+    const error = await running;
+    expect(error).toMatchObject({ code: 'pipeline.checkpoint-failed', retriable: true });
+    expect(sink.sent).toHaveLength(1);
+    expect(sink.aborted).toBe(1);
+    expect(runner.counters.records).toBe(0);
   });
 });

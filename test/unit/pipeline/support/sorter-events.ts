@@ -82,6 +82,8 @@ export interface FakeSynthesizerOptions {
   readonly dropSampleIndices?: readonly number[];
   /** Variants with these sample indices come back invalid for the schema. @default [] */
   readonly invalidSampleIndices?: readonly number[];
+  /** Variants with these sample indices are dropped as the model's own schema check would, counted by class. @default [] */
+  readonly modelInvalidSampleIndices?: readonly number[];
 }
 
 /**
@@ -99,12 +101,19 @@ export class FakeSynthesizer implements Synthesizer {
     this.calls.push({ requests, options });
     const drop = new Set(this.options.dropSampleIndices ?? []);
     const invalid = new Set(this.options.invalidSampleIndices ?? []);
+    const modelInvalid = new Set(this.options.modelInvalidSampleIndices ?? []);
     let nearSource = 0;
+    const invalidByClass: Record<string, number> = {};
     const variants = requests.map((request) => {
       const kept: SyntheticVariant[] = [];
+      invalidByClass[request.label] ??= 0;
       for (let sampleIndex = 0; sampleIndex < request.k; sampleIndex++) {
         if (drop.has(sampleIndex)) {
           nearSource += 1;
+          continue;
+        }
+        if (modelInvalid.has(sampleIndex)) {
+          invalidByClass[request.label] = (invalidByClass[request.label] ?? 0) + 1;
           continue;
         }
         const source = request.record as unknown as SorterEvent;
@@ -113,6 +122,7 @@ export class FakeSynthesizer implements Synthesizer {
       }
       return kept;
     });
-    return { variants, dropped: { exactCopies: 0, nearSource, nearClassRow: 0, invalid: 0 } };
+    const modelInvalidTotal = Object.values(invalidByClass).reduce((sum, count) => sum + count, 0);
+    return { variants, dropped: { exactCopies: 0, nearSource, nearClassRow: 0, invalid: modelInvalidTotal }, invalidByClass };
   }
 }
