@@ -4,6 +4,7 @@ import { didYouMean } from './did-you-mean.js';
 import { expectedPhrase, typeLabel } from './describe-type.js';
 import { ConfigError, type ConfigProblem } from './errors.js';
 import { renderValue } from './render-value.js';
+import { namesSecret, pathHoldsSecret, REDACTED } from './secret-names.js';
 import { allowedKeys, childSchema, formatPath, isOpenMapping, peel, valueAt } from './schema-walk.js';
 
 /**
@@ -75,7 +76,9 @@ function collectOverrides(env: Environment): Override[] {
 }
 
 function reject(override: Override, fix: string): never {
-  const message = `config error: ${override.variable}=${renderValue(override.raw)}: ${fix}`;
+  // A variable naming a credential may hold one: its value is never repeated.
+  const shown = override.segments.some(namesSecret) ? REDACTED : renderValue(override.raw);
+  const message = `config error: ${override.variable}=${shown}: ${fix}`;
   throw new ConfigError([{ path: '', code: 'env_override', message }]);
 }
 
@@ -159,7 +162,7 @@ function setAt(document: Mapping, path: readonly string[], value: unknown, schem
     const next = holder[key];
     if (next === undefined || next === null) holder[key] = {};
     else if (!isMapping(next)) {
-      reject(override, `${formatPath(path.slice(0, index + 1))} is ${renderValue(next)} in the file, not a mapping; fix the file first`);
+      reject(override, `${formatPath(path.slice(0, index + 1))} is ${pathHoldsSecret(path.slice(0, index + 1)) ? REDACTED : renderValue(next)} in the file, not a mapping; fix the file first`);
     }
     holder = holder[key] as Mapping;
   }

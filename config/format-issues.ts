@@ -3,7 +3,8 @@ import * as z from 'zod';
 import { expectedPhrase, oneOf } from './describe-type.js';
 import { didYouMean } from './did-you-mean.js';
 import type { ConfigProblem } from './errors.js';
-import { renderValueWithKind } from './render-value.js';
+import { renderValueWithKind, valueKind } from './render-value.js';
+import { pathHoldsSecret, REDACTED } from './secret-names.js';
 import { allowedKeys, formatPath, peel, schemaAt, valueAt } from './schema-walk.js';
 
 /**
@@ -82,7 +83,10 @@ function valueProblem(path: Path, code: string, fix: string, context: IssueConte
   if (!isPresent(context.document, path)) return problem(shown, 'missing', `${where} is missing: ${fix}`);
   const value = valueAt(context.document, path);
   const origin = originOf(path, context.origins);
-  return problem(shown, code, `${where} = ${renderValueWithKind(value, origin === undefined ? undefined : `from ${origin}`)}: ${fix}`);
+  const note = origin === undefined ? undefined : `from ${origin}`;
+  // An entry naming a credential may hold one: its kind is shown, never its value.
+  const rendered = pathHoldsSecret(path) ? `${REDACTED} (${valueKind(value)}${note === undefined ? '' : `, ${note}`})` : renderValueWithKind(value, note);
+  return problem(shown, code, `${where} = ${rendered}: ${fix}`);
 }
 
 function isPresent(document: unknown, path: Path): boolean {

@@ -7,6 +7,7 @@
 import type { ConsumerGlobalConfig, ProducerGlobalConfig } from 'node-rdkafka';
 
 import type { KafkaConfig } from '../../config/schema.js';
+import { namesSecret, REDACTED } from '../../config/secret-names.js';
 
 export type DeliveryGuarantee = 'at-least-once' | 'exactly-once';
 
@@ -137,11 +138,8 @@ export function adminSettings(kafka: KafkaConfig, purpose = 'admin'): Record<str
   return baseSettings(kafka, `${CLIENT_ID_PREFIX}-${purpose}`);
 }
 
-/** Property names whose values are credentials; matched on the whole name, case-insensitively. */
-const SECRET_PROPERTY = /(password|secret|token|credential|private|jaas|oauthbearer\.config|^ssl\.key\.pem$|^ssl_key$)/i;
-
 /** What a secret value is shown as in logs. */
-export const REDACTED = '[redacted]';
+export { REDACTED };
 
 /**
  * A copy of `settings` safe to log: values of secret-looking properties (`sasl.password`,
@@ -152,7 +150,7 @@ export function redactSettings(settings: Readonly<Record<string, unknown>>): Rec
   const shown: Record<string, string> = {};
   for (const [name, value] of Object.entries(settings)) {
     if (typeof value === 'function') shown[name] = '[function]';
-    else shown[name] = SECRET_PROPERTY.test(name) ? REDACTED : String(value);
+    else shown[name] = namesSecret(name) ? REDACTED : String(value);
   }
   return shown;
 }

@@ -166,8 +166,14 @@ const MISTAKES: readonly MistakeCase[] = [
   {
     name: 'environment override of an entry the file does not name',
     text: VALID_YAML,
-    env: { RARETIDE__KAFKA__SETTINGS__SASL_PASSWORD: 'x' },
-    says: ['RARETIDE__KAFKA__SETTINGS__SASL_PASSWORD="x"', 'kafka.settings has no entry matching', "RARETIDE__KAFKA__SETTINGS='{<key>: <value>}'"],
+    env: { RARETIDE__KAFKA__SETTINGS__SASL_PASSWORD: 'Pw-in-env-3b1f' },
+    // A variable naming a credential is never echoed (the reliability suite's security scenario found it was).
+    says: ['RARETIDE__KAFKA__SETTINGS__SASL_PASSWORD=[redacted]', 'kafka.settings has no entry matching', "RARETIDE__KAFKA__SETTINGS='{<key>: <value>}'"],
+  },
+  {
+    name: 'a credential of the wrong kind in the file',
+    text: replace('  brokers: 127.0.0.1:9092', '  brokers: 127.0.0.1:9092\n  settings: {sasl.password: [Pw-in-file-77c2]}'),
+    says: ['kafka.settings["sasl.password"] = [redacted] (list)', 'expected a string, number or boolean'],
   },
   {
     name: 'environment override below a scalar',
@@ -191,6 +197,7 @@ describe('config mistakes give one line naming path, value and fix', () => {
     expect(error.problems).toHaveLength(1);
     expect(error.message.split('\n')).toHaveLength(1);
     expect(error.message.startsWith('config error: ')).toBe(true);
+    expect(error.message).not.toContain('Pw-in-');
     let from = 0;
     for (const fragment of says) {
       const at = error.message.indexOf(fragment, from);
