@@ -98,6 +98,15 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
    */
   private readonly lastCheckpointed = new PartitionMap<bigint>();
   private readonly firstRead = new PartitionMap<bigint>();
+  /**
+   * Per partition, the offset after the last record admitted. librdkafka can deliver records twice: a
+   * `pause` stores the position of the last record already handed to the application as where `resume`
+   * fetches from, so records a `consume` in flight on the thread pool takes meanwhile come again after
+   * the resume (from the start, by `auto.offset.reset`, if none had been handed out yet). Records below
+   * this offset are such repeats and are dropped; it is cleared wherever the position legitimately moves
+   * back (assignment, revocation, rewind).
+   */
+  private readonly nextToAdmit = new PartitionMap<number>();
   private rebalancing: Promise<void> = Promise.resolve();
   /** The latest `consume` call, settled or not (close waits for it). */
   private consuming: Promise<unknown> = Promise.resolve();
@@ -191,14 +200,29 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
     // A consume brings runs of one partition: the partition is looked up once per run.
     let run: Message | undefined;
     let admitted = false;
+    let next = -1;
+    let repeats = 0;
+    const endRun = () => {
+      if (run !== undefined && admitted && next >= 0) this.nextToAdmit.set(run.topic, run.partition, next);
+    };
     for (const message of messages) {
       if (run === undefined || message.partition !== run.partition || message.topic !== run.topic) {
+        endRun();
         run = message;
         admitted = this.mayHandOut(message.topic, message.partition);
+        next = this.nextToAdmit.get(message.topic, message.partition) ?? -1;
         if (admitted && !this.firstRead.has(message.topic, message.partition)) this.firstRead.set(message.topic, message.partition, BigInt(message.offset));
       }
-      if (admitted) batch.push(toInputMessage(message));
+      if (!admitted) continue;
+      if (message.offset < next) {
+        repeats += 1;
+        continue;
+      }
+      next = message.offset + 1;
+      batch.push(toInputMessage(message));
     }
+    endRun();
+    if (repeats > 0) this.log({ level: 'debug', message: 'dropped records librdkafka delivered again after a pause', fields: { repeats } });
     return batch;
   }
 
@@ -252,6 +276,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
     await this.consuming;
     this.ahead = undefined;
     this.held = [];
+    this.nextToAdmit.clear();
     for (const { topic, partition } of this.assigned.keys()) {
       const target = this.lastCheckpointed.get(topic, partition) ?? this.firstRead.get(topic, partition);
       if (target === undefined) continue;
@@ -338,7 +363,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
       this.commits.forget(partitions);
       this.applyAssignment(partitions, false);
       for (const { topic, partition } of partitions) {
-        for (const map of [this.revoking, this.lastCheckpointed, this.firstRead]) map.delete(topic, partition);
+        for (const map of [this.revoking, this.lastCheckpointed, this.firstRead, this.nextToAdmit]) map.delete(topic, partition);
       }
       this.held = this.held.filter((message) => this.assigned.has(message.topic, message.partition));
       this.ahead = this.ahead?.then((read) => ({ ...read, records: read.records.filter((message) => this.assigned.has(message.topic, message.partition)) }));
@@ -362,6 +387,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
     for (const { topic, partition } of partitions) {
       if (add) this.assigned.set(topic, partition, true);
       else this.assigned.delete(topic, partition);
+      this.nextToAdmit.delete(topic, partition);
     }
   }
 
