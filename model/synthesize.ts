@@ -51,6 +51,8 @@ export interface SynthesisCounts extends GuardCounts {
   readonly unknownClass: number;
   /** Decodes dropped because they are not valid per the schema (never expected; counted, not hidden). */
   readonly invalid: number;
+  /** `invalid` by source: entry i counts the dropped decodes of `sources[i]`. */
+  readonly invalidBySource: readonly number[];
 }
 
 export interface SynthesisResult {
@@ -77,7 +79,7 @@ export function synthesize(model: TrainedModel, sources: readonly SynthesisSourc
 
   const decoded: (SyntheticRecord & GuardCandidate)[] = [];
   let requested = 0;
-  let invalid = 0;
+  const invalidBySource = sources.map(() => 0);
   known.forEach(({ source, sourceIndex, row }, r) => {
     requested += row.k;
     const freshStreams = recordStreams(options.seed, `${model.id}${FRESH_STREAM_SUFFIX}`, source.key);
@@ -85,7 +87,7 @@ export function synthesize(model: TrainedModel, sources: readonly SynthesisSourc
       const fresh = freshStreams.sample(sample.sampleIndex);
       const record = codec.decode(sample.features, source.record, { random: () => fresh.uniform() });
       if (!model.schemaType.isValid(record)) {
-        invalid++;
+        invalidBySource[sourceIndex]!++;
         continue;
       }
       decoded.push({ sourceIndex, sampleIndex: sample.sampleIndex, record, features: codec.encode(record), classIndex: row.classIndex, source: row.features });
@@ -95,5 +97,6 @@ export function synthesize(model: TrainedModel, sources: readonly SynthesisSourc
   const records = decoded
     .filter((_, i) => guard.keep[i])
     .map(({ sourceIndex, sampleIndex, record }) => ({ sourceIndex, sampleIndex, record }));
-  return { records, counts: { ...guard.counts, requested, unknownClass, invalid } };
+  const invalid = invalidBySource.reduce((sum, count) => sum + count, 0);
+  return { records, counts: { ...guard.counts, requested, unknownClass, invalid, invalidBySource } };
 }

@@ -32,27 +32,10 @@ export class ModelSynthesizer implements Synthesizer {
     const result = this.run(requests, options);
     const variants: SyntheticVariant[][] = requests.map(() => []);
     for (const { sourceIndex, sampleIndex, record } of result.records) variants[sourceIndex]!.push({ sampleIndex, record });
-    const { exactCopies, nearSource, nearClassRow, invalid } = result.counts;
-    return { variants, dropped: { exactCopies, nearSource, nearClassRow, invalid }, invalidByClass: this.invalidByClass(requests, options, invalid) };
-  }
-
-  /**
-   * The model counts decodes its record schema refuses per call, not per record. Such decodes are not
-   * expected at all, so the split by class is worked out only when there are some, by making the
-   * variants of all classes but one again: a variant depends on its own record alone (its random
-   * streams are keyed by the record's position), so the second call makes the same decodes.
-   */
-  private invalidByClass(requests: readonly SynthesisRequest[], options: SynthesisOptions, invalid: number): Record<string, number> {
-    const labels = [...new Set(requests.map((request) => request.label))];
-    const byClass: Record<string, number> = {};
-    let unattributed = invalid;
-    for (const label of labels.slice(0, -1)) {
-      byClass[label] = invalid === 0 ? 0 : this.run(requests.filter((request) => request.label === label), options).counts.invalid;
-      unattributed -= byClass[label];
-    }
-    const last = labels.at(-1);
-    if (last !== undefined) byClass[last] = unattributed;
-    return byClass;
+    const { exactCopies, nearSource, nearClassRow, invalid, invalidBySource } = result.counts;
+    const invalidByClass: Record<string, number> = {};
+    requests.forEach((request, index) => (invalidByClass[request.label] = (invalidByClass[request.label] ?? 0) + invalidBySource[index]!));
+    return { variants, dropped: { exactCopies, nearSource, nearClassRow, invalid }, invalidByClass };
   }
 
   private run(requests: readonly SynthesisRequest[], options: SynthesisOptions): ModelSynthesisResult {
