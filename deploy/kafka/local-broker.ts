@@ -50,14 +50,24 @@ export interface StartupTimings {
 export interface LocalBroker {
   /** Bootstrap address for clients, e.g. `127.0.0.1:40123`. */
   brokers: string;
-  /** The broker JVM's pid. */
-  pid: number;
+  /** The broker JVM's pid (a new one after `startAgain`). */
+  readonly pid: number;
   /** The fresh temp dir holding server.properties, the KRaft log dir and broker.log. */
   runDir: string;
   logFile: string;
   timings: StartupTimings;
   /** Stops the JVM (TERM, then KILL after the grace period) and removes `runDir`. */
   stop(): Promise<void>;
+  /**
+   * Stops the JVM as `stop` does but keeps `runDir` (data, properties, log), so `startAgain` can bring
+   * the same broker back: an outage for clients, as when a broker restarts in a cluster.
+   */
+  stopKeepingData(): Promise<void>;
+  /**
+   * After `stopKeepingData`: starts the JVM again on the same ports and data dir and resolves once a
+   * client gets Metadata from it; returns how long that took in milliseconds.
+   */
+  startAgain(): Promise<number>;
 }
 
 /** Marks the broker's command line, so `cli.ts down` can tell our JVM from a reused pid. */
@@ -109,34 +119,64 @@ async function startOnFreshPorts(jarDir: string, jarsMs: number, options: LocalB
   }
   const formatMs = Date.now() - formatStarted;
 
-  const readyStarted = Date.now();
-  const jvm = launchBroker(jarDir, runDir, propertiesFile, logFile);
-  const pid = jvm.pid as number;
-  const jvmAlive = () => jvm.exitCode === null && jvm.signalCode === null;
-  const watchdogPid = ownerPid === null ? undefined : spawnWatchdog(ownerPid, pid, runDir, Math.ceil(stopGraceMs / 1000));
+  let jvm: ChildProcess | undefined;
+  let watchdogPid: number | undefined;
+  const jvmAlive = (): boolean => jvm !== undefined && jvm.exitCode === null && jvm.signalCode === null;
+
+  /** Launches the JVM (and its watchdog) and waits until it answers Metadata; stops it if it does not. */
+  const launch = async (): Promise<number> => {
+    const started = Date.now();
+    const launched = launchBroker(jarDir, runDir, propertiesFile, logFile);
+    jvm = launched;
+    watchdogPid = ownerPid === null ? undefined : spawnWatchdog(ownerPid, launched.pid as number, runDir, Math.ceil(stopGraceMs / 1000));
+    try {
+      const deadline = Date.now() + startTimeoutMs;
+      await waitForPort('127.0.0.1', clientPort, deadline, () =>
+        jvmAlive() ? undefined : `the broker JVM exited (code ${launched.exitCode ?? launched.signalCode}) before opening ${brokers}`);
+      await probeMetadata(brokers, Math.max(1_000, deadline - Date.now()));
+    } catch (error) {
+      const logTail = await readTail(logFile);
+      await stop();
+      const message = `local Kafka broker did not become ready: ${(error as Error).message}\n--- last lines of broker.log ---\n${logTail}`;
+      throw logTail.includes('Address already in use') ? new PortClashError(message) : new Error(message);
+    }
+    return Date.now() - started;
+  };
+
+  const stopJvm = async (): Promise<void> => {
+    if (watchdogPid !== undefined) stopWatchdog(watchdogPid);
+    watchdogPid = undefined;
+    if (jvm?.pid !== undefined) await terminateProcess(jvm.pid, stopGraceMs, jvmAlive);
+  };
 
   let stopped = false;
-  const stop = async () => {
+  const stop = async (): Promise<void> => {
     if (stopped) return;
     stopped = true;
-    if (watchdogPid !== undefined) stopWatchdog(watchdogPid);
-    await terminateProcess(pid, stopGraceMs, jvmAlive);
+    await stopJvm();
     await rm(runDir, { recursive: true, force: true });
   };
 
-  try {
-    const deadline = Date.now() + startTimeoutMs;
-    await waitForPort('127.0.0.1', clientPort, deadline, () =>
-      jvmAlive() ? undefined : `the broker JVM exited (code ${jvm.exitCode ?? jvm.signalCode}) before opening ${brokers}`);
-    await probeMetadata(brokers, Math.max(1_000, deadline - Date.now()));
-  } catch (error) {
-    const logTail = await readTail(logFile);
-    await stop();
-    const message = `local Kafka broker did not become ready: ${(error as Error).message}\n--- last lines of broker.log ---\n${logTail}`;
-    throw logTail.includes('Address already in use') ? new PortClashError(message) : new Error(message);
-  }
-
-  return { brokers, pid, runDir, logFile, timings: { jarsMs, formatMs, readyMs: Date.now() - readyStarted }, stop };
+  const readyMs = await launch();
+  return {
+    brokers,
+    get pid() {
+      return jvm?.pid as number;
+    },
+    runDir,
+    logFile,
+    timings: { jarsMs, formatMs, readyMs },
+    stop,
+    stopKeepingData: async () => {
+      if (stopped) throw new Error(`the broker at ${brokers} was stopped for good; start a new one`);
+      await stopJvm();
+    },
+    startAgain: async () => {
+      if (stopped) throw new Error(`the broker at ${brokers} was stopped for good; start a new one`);
+      if (jvmAlive()) throw new Error(`the broker at ${brokers} is still running (pid ${jvm?.pid}); call stopKeepingData first`);
+      return launch();
+    },
+  };
 }
 
 function javaArgs(jarDir: string, runDir: string, heap: string): string[] {
