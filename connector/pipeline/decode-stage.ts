@@ -20,7 +20,8 @@ export type DecodedEntry =
 export async function decodeStage(messages: readonly InputMessage[], decoder: PayloadDecoder, readLabel: LabelReader): Promise<DecodedEntry[]> {
   const entries: DecodedEntry[] = [];
   for (const message of messages) {
-    const decoded = await decoder.decode(message.value);
+    const pending = decoder.decode(message.value);
+    const decoded = pending instanceof Promise ? await pending : pending;
     if (!decoded.ok) {
       if (decoded.problem.retriable) {
         throw new RaretideError(
