@@ -30,6 +30,7 @@ import type { ConsumerGroupLink } from './consumer-group-link.js';
 import { toInputMessage } from './input-message.js';
 import { toKafkaError } from './kafka-errors.js';
 import { silentLogger, type KafkaLogger } from './kafka-log.js';
+import { WarningThrottle } from './warning-throttle.js';
 import { GroupCommits } from './offset-commits.js';
 import { PartitionMap } from './partition-map.js';
 
@@ -84,6 +85,8 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   readonly consumer: KafkaConsumer;
   private readonly timeouts: ConsumerSourceTimeouts;
   private readonly log: KafkaLogger;
+  /** Client errors librdkafka retries by itself: one line per kind every few seconds (an outage brings dozens). */
+  private readonly warnings: WarningThrottle;
   private readonly commits: GroupCommits;
   private listener: AssignmentListener | undefined;
   /** Partitions assigned to this member, and those whose revocation is under way. */
@@ -124,6 +127,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   private constructor(options: ConsumerSourceOptions, rebalanceTarget: { source?: KafkaConsumerSource }) {
     this.timeouts = { ...DEFAULT_TIMEOUTS, ...options.timeouts };
     this.log = options.log ?? silentLogger;
+    this.warnings = new WarningThrottle(this.log);
     const { global, topic } = groupConsumerSettings(options.kafka, options);
     const settings = { ...global, ...options.settings };
     this.log({ level: 'debug', message: 'consumer settings', fields: { settings: redactSettings(settings) } });
@@ -404,7 +408,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
   private clientError(error: LibrdKafkaError): void {
     const classified = toKafkaError('consumer', error);
     if (classified.code === 'kafka.fatal' || classified.code === 'kafka.fenced') this.fail(classified);
-    else this.log({ level: 'warn', message: 'consumer client error (librdkafka retries on its own)', error: classified });
+    else this.warnings.warn({ level: 'warn', message: 'consumer client error (librdkafka retries on its own)', error: classified });
   }
 
   private fail(error: RaretideError): void {

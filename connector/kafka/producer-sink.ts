@@ -31,6 +31,7 @@ import type { ConsumerGroupLink } from './consumer-group-link.js';
 import { DeliveryTracker } from './delivery-tracker.js';
 import { toKafkaError } from './kafka-errors.js';
 import { silentLogger, type KafkaLogger } from './kafka-log.js';
+import { WarningThrottle } from './warning-throttle.js';
 import { ProducerQueue } from './producer-queue.js';
 import { loadBalanceStates, STATE_TOPIC_CONFIG, stateRecords, StateRollback, type StateRecord } from './state-topic.js';
 import { transactionCall } from './transaction-calls.js';
@@ -97,6 +98,8 @@ export class KafkaProducerSink implements BatchSink {
   private readonly tracker: DeliveryTracker;
   private readonly queue: ProducerQueue;
   private readonly log: KafkaLogger;
+  /** Client errors librdkafka retries by itself: one line per kind every few seconds (an outage brings dozens). */
+  private readonly warnings: WarningThrottle;
   private readonly stateRollback = new StateRollback();
   private inTransaction = false;
   /** Set once the producer cannot be used any more; every later call raises it. */
@@ -111,6 +114,7 @@ export class KafkaProducerSink implements BatchSink {
     this.exactlyOnce = options.delivery.guarantee === 'exactly-once';
     this.timeouts = { ...DEFAULT_TIMEOUTS, ...options.timeouts };
     this.log = options.log ?? silentLogger;
+    this.warnings = new WarningThrottle(this.log);
     this.tracker = new DeliveryTracker(options.perMessageReports === true, options.clock ?? Date.now);
     this.queue = new ProducerQueue(producer, this.tracker, this.timeouts.queueFullMs, () => this.raiseIfUnusable());
     producer.on('delivery-report', this.tracker.onReport);
@@ -303,7 +307,7 @@ export class KafkaProducerSink implements BatchSink {
   private clientError(error: LibrdKafkaError): void {
     const classified = toKafkaError('producer', error);
     if (classified.code === 'kafka.fatal' || classified.code === 'kafka.fenced') this.noteFatal(classified);
-    else this.log({ level: 'warn', message: 'producer client error (librdkafka retries on its own)', error: classified });
+    else this.warnings.warn({ level: 'warn', message: 'producer client error (librdkafka retries on its own)', error: classified });
   }
 
   /** Remembers fatal errors (the producer is then unusable) and returns the error for throwing. */
