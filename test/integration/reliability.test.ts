@@ -4,6 +4,9 @@
  * scenario 2, which stops and starts a broker of its own (started ahead, while scenario 1 runs).
  * Each scenario is one test; its row of the table is printed, and its failed checks are the failure.
  */
+import { mkdir } from 'node:fs/promises';
+import { resolve } from 'node:path';
+
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { renderTable } from '../reliability/results-table.js';
@@ -13,11 +16,21 @@ import { kafkaBrokers } from '../support/kafka-brokers.js';
 
 /** The default seed of `npm run reliability`, so a CI failure repeats with `--short --seed 20261202`. */
 const SEED = 20_261_202;
+/** Where to keep every worker's log, as `--logs` does; unset keeps none. */
+const LOG_DIR = process.env.RARETIDE_RELIABILITY_LOGS?.trim() || undefined;
 
 let suite: PreparedSuite | undefined;
 
 beforeAll(async () => {
-  suite = await prepareSuite({ brokers: kafkaBrokers(), seed: SEED, progress: (line) => console.log(`[reliability] ${line}`), startRestartableBroker: true });
+  const logDir = LOG_DIR === undefined ? undefined : resolve(LOG_DIR);
+  if (logDir !== undefined) await mkdir(logDir, { recursive: true });
+  suite = await prepareSuite({
+    brokers: kafkaBrokers(),
+    seed: SEED,
+    progress: (line) => console.log(`[reliability] ${line}`),
+    startRestartableBroker: true,
+    ...(logDir === undefined ? {} : { logDir }),
+  });
 }, 120_000);
 
 afterAll(async () => {
