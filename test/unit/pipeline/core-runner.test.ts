@@ -1,10 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { RaretideError } from '../../../config/errors.js';
-import { RawFraming } from '../../../connector/avro/raw-framing.js';
 import type { PartitionBalanceState } from '../../../connector/pipeline/balance-state.js';
 import { BalanceController } from '../../../connector/pipeline/balance.js';
 import { PipelineCore } from '../../../connector/pipeline/core.js';
-import { KeyedUniform } from '../../../connector/pipeline/keyed-uniform.js';
 import { PROVENANCE_HEADERS } from '../../../connector/pipeline/provenance.js';
 import { TokenBucket } from '../../../connector/pipeline/rate-limit.js';
 import { MAX_GROUP_BATCHES, PipelineRunner, type BatchReport, type RunnerOptions } from '../../../connector/pipeline/runner.js';
@@ -19,7 +17,7 @@ import type {
 } from '../../../connector/pipeline/source-sink.js';
 import { partitionKey, type TopicPartition } from '../../../connector/pipeline/topic-partition.js';
 import { waitFor } from '../../support/wait-for.js';
-import { FakeSynthesizer, messagesOf, sorterDecoder, sorterEvents, sorterSchema } from './support/sorter-events.js';
+import { messagesOf, sorterEvents, sorterPipeline } from './support/sorter-events.js';
 
 const TOPIC = 'sorter.events';
 const P0: TopicPartition = { topic: TOPIC, partition: 0 };
@@ -96,18 +94,7 @@ class MemorySink implements BatchSink {
 }
 
 function pipeline(targets: Record<string, number> = { jam: 0.1 }): { core: PipelineCore; balance: BalanceController } {
-  const balance = new BalanceController({ targets, maxPerRecord: 5, counting: { mode: 'cumulative' } }, new KeyedUniform(5));
-  const core = new PipelineCore({
-    decoder: sorterDecoder(),
-    outputFraming: new RawFraming(sorterSchema),
-    label: { from: 'field', path: 'outcome' },
-    balance,
-    synthesizer: new FakeSynthesizer(),
-    sampling: { seed: 5, temperature: 1 },
-    includeOriginals: true,
-    clock: { now: () => 0 },
-  });
-  return { core, balance };
+  return sorterPipeline({ targets, seed: 5, temperature: 1, includeOriginals: true });
 }
 
 function batchesOf(messages: readonly InputMessage[], size: number): InputMessage[][] {

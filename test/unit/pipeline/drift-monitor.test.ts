@@ -1,14 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import type { DriftScorer } from '../../../model/drift/live-scorer.js';
 import type { AvroRecord } from '../../../model/features/avro-types.js';
-import { BalanceController } from '../../../connector/pipeline/balance.js';
-import { PipelineCore } from '../../../connector/pipeline/core.js';
 import type { DecodedEntry } from '../../../connector/pipeline/decode-stage.js';
 import { DriftMonitor, isDriftSample } from '../../../connector/pipeline/drift-monitor.js';
 import { DriftWindow } from '../../../connector/pipeline/drift-window.js';
-import { KeyedUniform } from '../../../connector/pipeline/keyed-uniform.js';
-import { RawFraming } from '../../../connector/avro/raw-framing.js';
-import { FakeSynthesizer, messagesOf, sorterDecoder, sorterEvents, sorterSchema } from './support/sorter-events.js';
+import { messagesOf, sorterEvents, sorterPipeline } from './support/sorter-events.js';
 
 /** A scorer whose score is the record's `weightKg`, so tests choose every score; counts its calls. */
 class WeightScorer implements DriftScorer {
@@ -126,20 +122,15 @@ describe('DriftMonitor', () => {
   });
 
   it('is fed by the pipeline core with every decoded, labelled batch', async () => {
-    const balance = new BalanceController({ targets: { jam: 0.2 }, maxPerRecord: 5, counting: { mode: 'cumulative' } }, new KeyedUniform(7));
-    balance.assign({ topic: 'sorter.events', partition: 0 });
     const monitor = new DriftMonitor({ sampleOneIn: 1, scoreRows: 1, windowRecords: 100 });
     const scorer = new WeightScorer('m1');
     monitor.follow(scorer);
-    const core = new PipelineCore({
-      decoder: sorterDecoder(),
-      outputFraming: new RawFraming(sorterSchema),
-      label: { from: 'field', path: 'outcome' },
-      balance,
-      synthesizer: new FakeSynthesizer(),
-      sampling: { seed: 7, temperature: 0.8 },
+    const { core } = sorterPipeline({
+      targets: { jam: 0.2 },
+      seed: 7,
+      temperature: 0.8,
       includeOriginals: false,
-      clock: { now: () => 0 },
+      assign: { topic: 'sorter.events', partition: 0 },
       onDecoded: (decoded) => monitor.observe(decoded),
     });
     const events = sorterEvents(30, { jam: 0.2 }, 5);

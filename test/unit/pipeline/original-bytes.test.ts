@@ -6,12 +6,9 @@ import { describe, expect, it } from 'vitest';
 import { knownSchema } from '../../../connector/avro/known-schema.js';
 import { RawFraming } from '../../../connector/avro/raw-framing.js';
 import { SingleObjectFraming } from '../../../connector/avro/single-object-framing.js';
-import { BalanceController } from '../../../connector/pipeline/balance.js';
-import { PipelineCore } from '../../../connector/pipeline/core.js';
-import { KeyedUniform } from '../../../connector/pipeline/keyed-uniform.js';
 import { originalsPassUnchanged } from '../../../connector/pipeline/original-bytes.js';
 import { PROVENANCE_HEADERS } from '../../../connector/pipeline/provenance.js';
-import { FakeSynthesizer, messagesOf, SORTER_EVENT_SCHEMA, sorterDecoder, sorterEvents, sorterSchema } from './support/sorter-events.js';
+import { messagesOf, SORTER_EVENT_SCHEMA, sorterEvents, sorterPipeline, sorterSchema } from './support/sorter-events.js';
 
 const TOPIC = 'sorter.events';
 /** The sorter schema with one more field: another schema, another fingerprint. */
@@ -31,19 +28,7 @@ describe('originalsPassUnchanged', () => {
 
 describe('PipelineCore — originals as read', () => {
   async function originalsOf(originalsAsRead: boolean) {
-    const balance = new BalanceController({ targets: { jam: 0.2 }, maxPerRecord: 5, counting: { mode: 'cumulative' } }, new KeyedUniform(7));
-    balance.assign({ topic: TOPIC, partition: 0 });
-    const core = new PipelineCore({
-      decoder: sorterDecoder(),
-      outputFraming: new RawFraming(sorterSchema),
-      label: { from: 'field', path: 'outcome' },
-      balance,
-      synthesizer: new FakeSynthesizer(),
-      sampling: { seed: 7, temperature: 0.8 },
-      includeOriginals: true,
-      originalsAsRead,
-      clock: { now: () => 0 },
-    });
+    const { core } = sorterPipeline({ targets: { jam: 0.2 }, seed: 7, temperature: 0.8, includeOriginals: true, originalsAsRead, assign: { topic: TOPIC, partition: 0 } });
     const messages = messagesOf(sorterEvents(60, { jam: 0.1 }, 9), 1, TOPIC);
     const { outputs } = await core.processBatch(messages);
     const originals = outputs.filter((output) => output.headers.some((header) => header[PROVENANCE_HEADERS.kind] === 'original'));

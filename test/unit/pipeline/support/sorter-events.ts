@@ -5,7 +5,11 @@
 import { knownSchema, type KnownSchema } from '../../../../connector/avro/known-schema.js';
 import { PayloadDecoder } from '../../../../connector/avro/payload-decoder.js';
 import { RawFraming } from '../../../../connector/avro/raw-framing.js';
+import { BalanceController } from '../../../../connector/pipeline/balance.js';
+import { PipelineCore, type PipelineCoreOptions } from '../../../../connector/pipeline/core.js';
+import { KeyedUniform } from '../../../../connector/pipeline/keyed-uniform.js';
 import type { InputMessage } from '../../../../connector/pipeline/source-sink.js';
+import type { TopicPartition } from '../../../../connector/pipeline/topic-partition.js';
 import type { SynthesisOptions, SynthesisRequest, SynthesisResult, Synthesizer, SyntheticVariant } from '../../../../connector/pipeline/synthesizer.js';
 import { seededRandom } from '../../../support/seeded-random.js';
 
@@ -75,6 +79,41 @@ export function messagesOf(events: readonly SorterEvent[], partitions = 1, topic
 
 export function sorterDecoder(): PayloadDecoder {
   return new PayloadDecoder(new RawFraming(sorterSchema));
+}
+
+export interface SorterPipelineOptions {
+  /** @default {jam: 0.1} */
+  readonly targets?: Readonly<Record<string, number>>;
+  /** The run's seed, and the balance controller's rounding seed. */
+  readonly seed: number;
+  readonly temperature: number;
+  readonly includeOriginals: boolean;
+  readonly originalsAsRead?: boolean;
+  readonly onDecoded?: PipelineCoreOptions['onDecoded'];
+  /** A partition to assign to the balance controller at once. @default none */
+  readonly assign?: TopicPartition;
+}
+
+/**
+ * The pipeline core over sorter events with the fake synthesizer, raw framing in and out, labels from
+ * `outcome`, cumulative counts with k ≤ 5 and a clock that stands still.
+ */
+export function sorterPipeline(options: SorterPipelineOptions): { core: PipelineCore; balance: BalanceController } {
+  const balance = new BalanceController({ targets: options.targets ?? { jam: 0.1 }, maxPerRecord: 5, counting: { mode: 'cumulative' } }, new KeyedUniform(options.seed));
+  if (options.assign !== undefined) balance.assign(options.assign);
+  const core = new PipelineCore({
+    decoder: sorterDecoder(),
+    outputFraming: new RawFraming(sorterSchema),
+    label: { from: 'field', path: 'outcome' },
+    balance,
+    synthesizer: new FakeSynthesizer(),
+    sampling: { seed: options.seed, temperature: options.temperature },
+    includeOriginals: options.includeOriginals,
+    ...(options.originalsAsRead === undefined ? {} : { originalsAsRead: options.originalsAsRead }),
+    ...(options.onDecoded === undefined ? {} : { onDecoded: options.onDecoded }),
+    clock: { now: () => 0 },
+  });
+  return { core, balance };
 }
 
 export interface FakeSynthesizerOptions {
