@@ -3,7 +3,7 @@ import * as z from 'zod';
 import { expectedPhrase, oneOf } from './describe-type.js';
 import { didYouMean } from './did-you-mean.js';
 import type { ConfigProblem } from './errors.js';
-import { renderValueWithKind, valueKind } from './render-value.js';
+import { renderValueWithKind } from './render-value.js';
 import { pathHoldsSecret, REDACTED } from './secret-names.js';
 import { allowedKeys, formatPath, peel, schemaAt, valueAt } from './schema-walk.js';
 
@@ -85,7 +85,7 @@ function valueProblem(path: Path, code: string, fix: string, context: IssueConte
   const origin = originOf(path, context.origins);
   const note = origin === undefined ? undefined : `from ${origin}`;
   // An entry naming a credential may hold one: its kind is shown, never its value.
-  const rendered = pathHoldsSecret(path) ? `${REDACTED} (${valueKind(value)}${note === undefined ? '' : `, ${note}`})` : renderValueWithKind(value, note);
+  const rendered = pathHoldsSecret(path) ? renderValueWithKind(value, note, REDACTED) : renderValueWithKind(value, note);
   return problem(shown, code, `${where} = ${rendered}: ${fix}`);
 }
 

@@ -17,7 +17,10 @@ export function renderValue(value: unknown): string {
   return typeof value === 'string' ? `${cut}…"` : `${cut}…`;
 }
 
-/** `1.5 (number)`, the value and its kind as an error message shows them. */
-export function renderValueWithKind(value: unknown, note?: string): string {
-  return `${renderValue(value)} (${valueKind(value)}${note === undefined ? '' : `, ${note}`})`;
+/**
+ * `1.5 (number)`, the value and its kind as an error message shows them; `shown` replaces the value's
+ * rendering (a credential's `[redacted]`) and keeps the kind.
+ */
+export function renderValueWithKind(value: unknown, note?: string, shown: string = renderValue(value)): string {
+  return `${shown} (${valueKind(value)}${note === undefined ? '' : `, ${note}`})`;
 }

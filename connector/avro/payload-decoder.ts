@@ -1,5 +1,5 @@
 import { scanValue, type ScanLimits } from './bounded-scan.js';
-import type { Framing } from './framing.js';
+import type { Framing, Unframed } from './framing.js';
 import type { KnownSchema } from './known-schema.js';
 import { findNonFinite } from './non-finite.js';
 import { fail, ok, type Result } from './problems.js';
@@ -45,7 +45,7 @@ export class PayloadDecoder {
     return pending instanceof Promise ? pending.then((unframed) => this.decodeBody(bytes, unframed)) : this.decodeBody(bytes, pending);
   }
 
-  private decodeBody(bytes: Buffer, unframed: Awaited<ReturnType<Framing['unframe']>>): Result<DecodedRecord> {
+  private decodeBody(bytes: Buffer, unframed: Result<Unframed>): Result<DecodedRecord> {
     if (!unframed.ok) return unframed;
     const { writer, bodyOffset } = unframed.value;
     const schema = writer.fingerprint.hex;

@@ -367,7 +367,7 @@ export class KafkaConsumerSource implements BatchSource, ConsumerGroupLink {
       this.commits.forget(partitions);
       this.applyAssignment(partitions, false);
       for (const { topic, partition } of partitions) {
-        for (const map of [this.revoking, this.lastCheckpointed, this.firstRead, this.nextToAdmit]) map.delete(topic, partition);
+        for (const map of [this.revoking, this.lastCheckpointed, this.firstRead]) map.delete(topic, partition);
       }
       this.held = this.held.filter((message) => this.assigned.has(message.topic, message.partition));
       this.ahead = this.ahead?.then((read) => ({ ...read, records: read.records.filter((message) => this.assigned.has(message.topic, message.partition)) }));
