@@ -11,21 +11,15 @@
 import { performance } from 'node:perf_hooks';
 import { DEFAULT_DRIFT_SETTINGS } from '../../connector/pipeline/drift-monitor.js';
 import { negativeElboScores } from '../../model/drift/score.js';
-import type { FeatureBlock, FeatureLayout } from '../../model/features/layout.js';
 import { createPrng } from '../../model/random.js';
 import { initBackend } from '../../model/vae/backend.js';
 import { DEFAULT_HYPER_PARAMETERS } from '../../model/vae/hyperparameters.js';
 import { ConditionalVae } from '../../model/vae/network.js';
 import { samplePosterior } from '../../model/vae/sampler.js';
 import { topologyFor } from '../../model/vae/train.js';
+import { buoyLayout } from './buoy-layout.js';
 
-const blocks: FeatureBlock[] = [];
-for (let i = 0; i < 21; i++) blocks.push({ kind: 'continuous', path: `reading${i}`, offset: i, width: 1 });
-blocks.push({ kind: 'categorical', path: 'sea_state', offset: 21, width: 4, categories: ['calm', 'slight', 'moderate', 'rough'] });
-blocks.push({ kind: 'categorical', path: 'buoy_mode', offset: 25, width: 3, categories: ['normal', 'saving', 'alarm'] });
-blocks.push({ kind: 'presence', path: 'gust', offset: 28, width: 1 });
-blocks.push({ kind: 'continuous', path: 'gust', offset: 29, width: 1, gatedBy: 28 });
-const layout: FeatureLayout = { width: 30, blocks };
+const layout = buoyLayout();
 
 const backend = await initBackend({ log: (message) => console.log(message) });
 const network = new ConditionalVae(topologyFor(layout, 2, DEFAULT_HYPER_PARAMETERS), 1);

@@ -13,7 +13,6 @@
  */
 import { performance } from 'node:perf_hooks';
 import * as tf from '@tensorflow/tfjs';
-import type { FeatureBlock, FeatureLayout } from '../../model/features/layout.js';
 import { createPrng } from '../../model/random.js';
 import { initBackend } from '../../model/vae/backend.js';
 import type { TrainingData } from '../../model/vae/dataset.js';
@@ -22,18 +21,12 @@ import { headIndexFor, klPerRow, reconstructionNllPerRow } from '../../model/vae
 import { ConditionalVae } from '../../model/vae/network.js';
 import { samplePosterior, type SourceRow } from '../../model/vae/sampler.js';
 import { topologyFor, trainVae } from '../../model/vae/train.js';
+import { buoyLayout } from './buoy-layout.js';
 
 const recordsToSample = Number(process.argv[2] ?? 2000);
 const k = Number(process.argv[3] ?? 5);
 
-// 22 continuous readings (one of them, gust, nullable), a 4-way and a 3-way categorical: width 30.
-const blocks: FeatureBlock[] = [];
-for (let i = 0; i < 21; i++) blocks.push({ kind: 'continuous', path: `reading${i}`, offset: i, width: 1 });
-blocks.push({ kind: 'categorical', path: 'sea_state', offset: 21, width: 4, categories: ['calm', 'slight', 'moderate', 'rough'] });
-blocks.push({ kind: 'categorical', path: 'buoy_mode', offset: 25, width: 3, categories: ['normal', 'saving', 'alarm'] });
-blocks.push({ kind: 'presence', path: 'gust', offset: 28, width: 1 });
-blocks.push({ kind: 'continuous', path: 'gust', offset: 29, width: 1, gatedBy: 28 });
-const layout: FeatureLayout = { width: 30, blocks };
+const layout = buoyLayout();
 
 function buoyData(rows: number): TrainingData {
   const prng = createPrng(2024);
