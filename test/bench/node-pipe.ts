@@ -29,6 +29,12 @@ export interface NodePipeOptions {
   readonly recordCount: number;
   /** Messages per `consume(n)`. */
   readonly batchSize: number;
+  /**
+   * Records forwarded before the steady-state mark (`steadyFromMs`): what runs before it (JIT, first
+   * fetches) is left out of a steady-state rate.
+   * @default 0
+   */
+  readonly warmUpRecords?: number;
 }
 
 /**
@@ -45,10 +51,14 @@ export interface NodePipeTiming {
   readonly elapsedMs: number;
   /** From subscribe to the first batch in hand: the group join and first fetch, part of `elapsedMs`. */
   readonly firstRecordMs: number;
+  /** From subscribe to the end of the batch that took the count forwarded to `warmUpRecords` or more. */
+  readonly steadyFromMs: number;
+  /** Records forwarded by then. */
+  readonly steadyFromRecords: number;
 }
 
 /** Runs the pipe in a fresh consumer group. */
-export async function runNodePipe({ brokers, sourceTopic, sinkTopic, reports, recordCount, batchSize }: NodePipeOptions): Promise<NodePipeTiming> {
+export async function runNodePipe({ brokers, sourceTopic, sinkTopic, reports, recordCount, batchSize, warmUpRecords = 0 }: NodePipeOptions): Promise<NodePipeTiming> {
   const consumer = await connectConsumer({ 'metadata.broker.list': brokers, 'group.id': uniqueName('bench-node-pipe') });
   const producer = await connectProducer({ 'metadata.broker.list': brokers, 'delivery.report.only.error': reports === 'failures only' });
   let acked = 0;
@@ -61,6 +71,7 @@ export async function runNodePipe({ brokers, sourceTopic, sinkTopic, reports, re
   consumer.subscribe([sourceTopic]);
   let forwarded = 0;
   let firstRecordMs: number | undefined;
+  let steadyFrom: { ms: number; records: number } | undefined;
   let lastProgress = Date.now();
   while (forwarded < recordCount) {
     const batch = await consumeBatch(consumer, batchSize);
@@ -82,6 +93,7 @@ export async function runNodePipe({ brokers, sourceTopic, sinkTopic, reports, re
     }
     forwarded += batch.length;
     if (batch.length > 0) consumer.commit();
+    if (steadyFrom === undefined && forwarded >= warmUpRecords && forwarded > 0) steadyFrom = { ms: Date.now() - started, records: forwarded };
   }
   await settle('flush of the node pipe', (done) => producer.flush(60_000, done));
   if (reports === 'every message') await waitFor(() => acked + failures.length >= recordCount, { what: 'delivery reports of the node pipe' });
@@ -97,5 +109,5 @@ export async function runNodePipe({ brokers, sourceTopic, sinkTopic, reports, re
   await disconnect(producer);
   await disconnect(consumer);
   if (failures.length > 0) throw new Error(`node pipe: ${failures.length} deliveries failed, first: ${failures[0]}`);
-  return { elapsedMs, firstRecordMs: firstRecordMs ?? elapsedMs };
+  return { elapsedMs, firstRecordMs: firstRecordMs ?? elapsedMs, steadyFromMs: steadyFrom?.ms ?? elapsedMs, steadyFromRecords: steadyFrom?.records ?? forwarded };
 }

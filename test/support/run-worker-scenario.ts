@@ -35,17 +35,27 @@ export async function writeSorterSchema(dir: string): Promise<string> {
   return path;
 }
 
+/** Layer sizes and epochs of a test model. */
+export interface SorterModelSize {
+  readonly hidden: number[];
+  readonly latent: number;
+  readonly epochs: number;
+}
+
+/** Deliberately small (fast to fit): what the tests use unless they need another. */
+export const SMALL_SORTER_MODEL: SorterModelSize = { hidden: [16], latent: 2, epochs: 4 };
+
 /**
- * Fits a deliberately small model (one hidden layer of 16, latent 2, 4 epochs) on events with the rare
- * classes at 5 % each, and saves it to `dir` (replacing a model there); returns the model id.
+ * Fits a model of `size` (small by default) on events with the rare classes at 5 % each, and saves it
+ * to `dir` (replacing a model there); returns the model id.
  */
-export async function fitSorterModel(dir: string, trainingSeed = 3): Promise<string> {
+export async function fitSorterModel(dir: string, trainingSeed = 3, size: SorterModelSize = SMALL_SORTER_MODEL): Promise<string> {
   const events = sorterEvents(3000, { jam: 0.05, misroute: 0.05 }, 100 + trainingSeed);
   const fitted = await fitModel({
     schema: SORTER_EVENT_SCHEMA,
     records: events as never,
     labelPath: 'outcome',
-    training: { hidden: [16], latent: 2, epochs: 4, batchSize: 256, seed: trainingSeed },
+    training: { ...size, batchSize: 256, seed: trainingSeed },
   });
   try {
     return await saveModel(dir, fitted.bundle, { overwrite: true });
