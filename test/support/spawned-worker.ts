@@ -1,11 +1,13 @@
 /**
- * `raretide run` as a real child process (`node --import tsx connector/cli/main.ts run`), for the tests
- * that kill it with SIGKILL or SIGTERM, and a count of what it has written so far.
+ * `raretide run` as a real child process (`node --import tsx connector/cli/main.ts run`, with the Node
+ * options it is deployed with, deploy/node-options.ts), for the tests that kill it with SIGKILL or
+ * SIGTERM, and a count of what it has written so far.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
 import { once } from 'node:events';
 import { fileURLToPath } from 'node:url';
 
+import { WORKER_NODE_OPTIONS } from '../../deploy/node-options.js';
 import { connectConsumer, disconnect } from './kafka-clients.js';
 import { uniqueName } from './topics.js';
 
@@ -22,7 +24,7 @@ export interface SpawnedWorker {
 const spawned: ChildProcess[] = [];
 
 export function spawnWorker(configPath: string, instanceId: string): SpawnedWorker {
-  const child = spawn(process.execPath, ['--import', 'tsx', 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId], {
+  const child = spawn(process.execPath, [...WORKER_NODE_OPTIONS, '--import', 'tsx', 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId], {
     cwd: repositoryRoot,
     stdio: ['ignore', 'ignore', 'pipe'],
   });

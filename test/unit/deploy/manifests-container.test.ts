@@ -6,6 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import { describe, expect, it } from 'vitest';
 import { validateConfig } from '../../../config/load.js';
+import { WORKER_NODE_OPTIONS } from '../../../deploy/node-options.js';
 
 interface Instruction {
   readonly keyword: string;
@@ -106,8 +107,8 @@ describe('deploy/container/Containerfile', () => {
     expect(Number(user!.split(':')[1])).toBeGreaterThan(0);
   });
 
-  it('starts the package\'s CLI entry point, `run` with the mounted config by default', () => {
-    expect(JSON.parse(last(runtime, 'ENTRYPOINT')!)).toEqual(['node', packageJson.bin.raretide]);
+  it('starts the package\'s CLI entry point with the worker\'s Node options, `run` with the mounted config by default', () => {
+    expect(JSON.parse(last(runtime, 'ENTRYPOINT')!)).toEqual(['node', ...WORKER_NODE_OPTIONS, packageJson.bin.raretide]);
     expect(JSON.parse(last(runtime, 'CMD')!)).toEqual(['run', '--config', '/etc/raretide/raretide.yaml']);
     expect(last(runtime, 'STOPSIGNAL')).toBe('SIGTERM');
   });
