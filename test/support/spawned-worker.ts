@@ -1,13 +1,13 @@
 /**
  * `raretide run` as a real child process (`node --import tsx connector/cli/main.ts run`, with the Node
- * options it is deployed with, deploy/node-options.ts), for the tests that kill it with SIGKILL or
+ * options it is deployed with, connector/cli/run/node-options.ts), for the tests that kill it with SIGKILL or
  * SIGTERM, and a count of what it has written so far.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
 import { once } from 'node:events';
 import { fileURLToPath } from 'node:url';
 
-import { WORKER_NODE_OPTIONS } from '../../deploy/node-options.js';
+import { WORKER_NODE_OPTIONS } from '../../connector/cli/run/node-options.js';
 import { connectConsumer, disconnect } from './kafka-clients.js';
 import { uniqueName } from './topics.js';
 

@@ -6,7 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import { describe, expect, it } from 'vitest';
 import { validateConfig } from '../../../config/load.js';
-import { WORKER_NODE_OPTIONS } from '../../../deploy/node-options.js';
+import { WORKER_NODE_OPTIONS } from '../../../connector/cli/run/node-options.js';
 
 interface Instruction {
   readonly keyword: string;

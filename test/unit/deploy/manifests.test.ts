@@ -11,7 +11,7 @@ import { EXIT_USAGE } from '../../../connector/cli/program.js';
 import { loadConfigFile } from '../../../config/load.js';
 import { requireSections } from '../../../config/requirements.js';
 import { STOP_DEADLINE_MS } from '../../../connector/cli/commands/run.js';
-import { WORKER_NODE_OPTIONS } from '../../../deploy/node-options.js';
+import { WORKER_NODE_OPTIONS } from '../../../connector/cli/run/node-options.js';
 
 const K8S = 'deploy/k8s';
 

@@ -13,3 +13,12 @@
  * Setting it from inside the process (v8.setFlagsFromString) does not resize a heap already made.
  */
 export const WORKER_NODE_OPTIONS: readonly string[] = ['--max-semi-space-size=64'];
+
+/**
+ * The worker's Node options this process was started without, looking at its command line and
+ * `NODE_OPTIONS` (an option counts by name, whatever value it was given: the operator's choice stands).
+ */
+export function missingNodeOptions(execArgv: readonly string[], nodeOptions: string | undefined): string[] {
+  const given = [...execArgv, ...(nodeOptions ?? '').split(/\s+/)].map((argument) => argument.split('=')[0]!.replaceAll('_', '-'));
+  return WORKER_NODE_OPTIONS.filter((option) => !given.includes(option.split('=')[0]!));
+}
