@@ -16,6 +16,8 @@
  *   c. then, at a fixed input rate from a paced producer, latency from a source record's produce time
  *      (its CreateTime) to its synthetic records' append to the output (LogAppendTime), p50 and p99;
  *   d. the worker's RSS from its /metrics, after (b) and after (c).
+ * Workers start with the Node options they are deployed with (connector/cli/run/node-options.ts); this
+ * process, which runs the pipe, with whatever NODE_OPTIONS it was given.
  * Rates are steady-state: timed from the point each side has passed the first `--warm-up` records
  * (the worker: its committed offsets; the pipe: records forwarded) to its last ack (pipe) / commit
  * (worker), so neither holds the group join, JIT compilation or the first model calls. The whole-run
@@ -29,6 +31,7 @@ import { parseArgs } from 'node:util';
 import type { KafkaConsumer } from 'node-rdkafka';
 
 import { startLocalBroker, type LocalBroker } from '../../deploy/kafka/local-broker.js';
+import { WORKER_NODE_OPTIONS } from '../../connector/cli/run/node-options.js';
 import { DEFAULT_HYPER_PARAMETERS } from '../../model/vae/hyperparameters.js';
 import { endOffsets } from '../support/adapter-loop.js';
 import { connectConsumer, connectProducer, disconnect, flushAndDisconnect } from '../support/kafka-clients.js';
@@ -281,6 +284,7 @@ async function main(): Promise<void> {
     const line = (label: string, timing: Timing, extra = '') =>
       `${label.padEnd(34)} ${rate(timing.steadyRecords, timing.steadyMs)} rec/s (${(timing.steadyMs / 1000).toFixed(2)} s)   whole run ${rate(timing.wholeRecords, timing.wholeMs)} rec/s${extra}`;
     console.log(`\nthroughput over ${recordCount} records, batches of ${batchSize}; steady state after the first ${warmUpRecords} records, to the last ack (pipe) / commit (worker):`);
+    console.log(`(workers start with the Node options they are deployed with: ${WORKER_NODE_OPTIONS.join(' ')}; this process, the pipe's, with ${process.env.NODE_OPTIONS ?? 'none'})`);
     console.log(line('a. pipe, a report per message', everyMessage));
     const ratios = roundTimings.map(({ pipe, worker: timing }) => steadyRate(timing) / steadyRate(pipe));
     roundTimings.forEach(({ pipe, worker: timing }, index) => {
