@@ -14,7 +14,9 @@
  *   maximum, while the allocation rate stays high: measured here (full size, same seed), RSS rose
  *   25.6 and 27.6 MiB over the 8 judged minutes of two runs in two steps (+8, then +16 MiB) while the
  *   live heap moved 0.2–0.4 MiB and RSS outside V8's heap 0.9 MiB — the new space going from 4 to 8 to
- *   16 MiB semi-spaces, not a leak. Its size is reported beside the judged series. A leak grows without
+ *   16 MiB semi-spaces, not a leak. The worker now runs with 64 MiB semi-spaces
+ *   (connector/cli/run/node-options.ts), so the new space may grow to 128 MiB; at this rate it stayed at
+ *   8–32 MiB (RSS +24.8 MiB, less the new space +0.3 MiB). Its size is reported beside the judged series. A leak grows without
  *   bound and passes 5 % over a long enough window (a rule of thumb of our own).
  * - Event-loop lag p99: the fitted line may rise by less than 10 ms over the window: well under what an
  *   operator would notice in batch latency, while a loop that slows down as it runs (growing queues,

@@ -1,5 +1,5 @@
 /**
- * `raretide run` as a child process, as test/support/spawned-worker.ts starts it (`node --import tsx
+ * `raretide run` as a child process, as test/support/spawned-worker.ts starts it (`node <deployed options> --import tsx
  * connector/cli/main.ts run`), with what the reliability scenarios need beyond it: extra environment
  * variables (secrets for the security scenario), the tensor probe preloaded (the soak reads
  * tf.memory() of the worker, which /metrics does not carry), its standard output kept as well, and the
@@ -11,6 +11,7 @@ import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
+import { WORKER_NODE_OPTIONS } from '../../connector/cli/run/node-options.js';
 import { waitFor } from '../support/wait-for.js';
 import type { CleanupStack } from './cleanup-stack.js';
 import type { TensorProbeRequest, TensorProbeSample } from './tensor-probe.js';
@@ -55,7 +56,8 @@ export interface WorkerProcess {
 export function startWorkerProcess(options: WorkerProcessOptions, cleanup: CleanupStack): WorkerProcess {
   const probeFlags = options.tensorProbe === true ? ['--expose-gc'] : [];
   const preload = options.tensorProbe === true ? ['--import', tensorProbe] : [];
-  const child = spawn(process.execPath, [...probeFlags, '--import', 'tsx', ...preload, 'connector/cli/main.ts', 'run', '--config', options.configPath, '--instance-id', options.instanceId], {
+  // The Node options the worker is deployed with, so the suite judges what runs in production.
+  const child = spawn(process.execPath, [...WORKER_NODE_OPTIONS, ...probeFlags, '--import', 'tsx', ...preload, 'connector/cli/main.ts', 'run', '--config', options.configPath, '--instance-id', options.instanceId], {
     cwd: repositoryRoot,
     env: { ...process.env, ...options.env },
     stdio: options.tensorProbe === true ? ['ignore', 'pipe', 'pipe', 'ipc'] : ['ignore', 'pipe', 'pipe'],
