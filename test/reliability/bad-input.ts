@@ -12,14 +12,14 @@ import { PROVENANCE_HEADERS } from '../../connector/pipeline/provenance.js';
 import { headerText, readWholeTopic } from '../support/adapter-loop.js';
 import { connectProducer, flushAndDisconnect } from '../support/kafka-clients.js';
 import { produceWithBackpressure } from '../support/produce-with-backpressure.js';
-import { metricSamples, readTagged, sorterEvents, sorterSchema, sumOf, writeRunConfig } from '../support/run-worker-scenario.js';
+import { metricSamples, readTagged, sorterEvents, sorterSchema, sumOf } from '../support/run-worker-scenario.js';
 import { seededRandom } from '../support/seeded-random.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { fuzzPayloads, shouldServe, type FuzzKind } from './fuzz-payloads.js';
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess } from './worker-process.js';
 
@@ -47,11 +47,8 @@ export async function badInput(context: SuiteContext, size: ScenarioSize): Promi
     const progress = await TopicProgress.open(brokers, cleanup);
     const payloads = mixed(context.seed + 30, valid, fuzzed);
     await writePayloads(brokers, topics.source, payloads);
-    const config = await writeRunConfig(context.dir, 'bad-input', {
-      brokers,
+    const config = await writeScenarioConfig(context, 'bad-input', {
       topics,
-      schemaFile: context.schemaFile,
-      modelDir: context.modelDir,
       targets: { jam: 0.06, misroute: 0.06 },
       includeOriginals: true,
       seed: context.seed,

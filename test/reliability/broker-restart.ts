@@ -10,7 +10,7 @@
  */
 import { setTimeout as delay } from 'node:timers/promises';
 
-import { readTagged, writeEvents, writeRunConfig, type ScenarioTopics, type WrittenEvent } from '../support/run-worker-scenario.js';
+import { readTagged, writeEvents, type ScenarioTopics, type WrittenEvent } from '../support/run-worker-scenario.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { patchRunConfig } from './config-patch.js';
@@ -18,7 +18,7 @@ import { cappedPlanEvents, plannedVariantKeys, tallyVariants, UNREACHABLE_TARGET
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
 import { compareStateWithTopics } from './state-ledger.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess, type WorkerProcess } from './worker-process.js';
 
@@ -53,11 +53,9 @@ export async function brokerStopStart(context: SuiteContext, size: ScenarioSize)
       const topics = await createScenarioTopics(brokers, `rel-outage-${guarantee === 'exactly-once' ? 'eos' : 'alo'}`, PARTITIONS, cleanup);
       const written = await writeEvents(brokers, topics.source, cappedPlanEvents(records, context.seed + 10 + index), PARTITIONS);
       // A rate cap below what a batch wants keeps batches in flight, so the stop catches some half done.
-      const config = await writeRunConfig(context.dir, `outage-${guarantee}`, {
+      const config = await writeScenarioConfig(context, `outage-${guarantee}`, {
         brokers,
         topics,
-        schemaFile: context.schemaFile,
-        modelDir: context.modelDir,
         targets: UNREACHABLE_TARGETS,
         guarantee,
         batchSize: 100,

@@ -10,7 +10,7 @@
  * time, so most kills land inside one.
  */
 import { seededRandom } from '../support/seeded-random.js';
-import { readTagged, writeEvents, writeRunConfig } from '../support/run-worker-scenario.js';
+import { readTagged, writeEvents } from '../support/run-worker-scenario.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { patchRunConfig } from './config-patch.js';
@@ -18,7 +18,7 @@ import { cappedPlanEvents, plannedVariantKeys, tallyVariants, UNREACHABLE_TARGET
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
 import { compareStateWithTopics } from './state-ledger.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess } from './worker-process.js';
 
@@ -42,11 +42,8 @@ export async function killAndRestart(context: SuiteContext, size: ScenarioSize):
     const topics = await createScenarioTopics(brokers, 'rel-kill', PARTITIONS, cleanup);
     const progress = await TopicProgress.open(brokers, cleanup);
     const written = await writeEvents(brokers, topics.source, cappedPlanEvents(records, context.seed + 1), PARTITIONS);
-    const config = await writeRunConfig(context.dir, 'kill-restart', {
-      brokers,
+    const config = await writeScenarioConfig(context, 'kill-restart', {
       topics,
-      schemaFile: context.schemaFile,
-      modelDir: context.modelDir,
       targets: UNREACHABLE_TARGETS,
       guarantee: 'exactly-once',
       batchSize: 100,

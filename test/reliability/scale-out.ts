@@ -6,7 +6,7 @@
  * double-counted anything would show), and each rare class must reach its target share of the whole
  * output within ±1 percentage point, as one worker does (test/integration/run-worker.test.ts).
  */
-import { readTagged, sorterEvents, sorterSchema, writeRunConfig, type SorterEvent } from '../support/run-worker-scenario.js';
+import { readTagged, sorterEvents, sorterSchema, type SorterEvent } from '../support/run-worker-scenario.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { producePaced } from './paced-producer.js';
@@ -14,7 +14,7 @@ import { duplicateCount, PER_RECORD_CAP } from './planned-variants.js';
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
 import { compareStateWithTopics } from './state-ledger.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess, type WorkerProcess } from './worker-process.js';
 
@@ -36,11 +36,8 @@ export async function scaleOut(context: SuiteContext, size: ScenarioSize): Promi
     const { brokers } = context;
     const topics = await createScenarioTopics(brokers, 'rel-scale', PARTITIONS, cleanup);
     const progress = await TopicProgress.open(brokers, cleanup);
-    const config = await writeRunConfig(context.dir, 'scale-out', {
-      brokers,
+    const config = await writeScenarioConfig(context, 'scale-out', {
       topics,
-      schemaFile: context.schemaFile,
-      modelDir: context.modelDir,
       targets: TARGETS,
       guarantee: 'exactly-once',
       batchSize: 100,

@@ -22,7 +22,7 @@ import Kafka from 'node-rdkafka';
 import { loadConfigFile } from '../../config/load.js';
 import { requireSections } from '../../config/requirements.js';
 import { adminSettings, groupConsumerSettings, producerSettings, transactionalIdFor } from '../../connector/kafka/client-settings.js';
-import { sorterEvents, writeEvents, writeRunConfig } from '../support/run-worker-scenario.js';
+import { sorterEvents, writeEvents } from '../support/run-worker-scenario.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { patchRunConfig } from './config-patch.js';
@@ -30,7 +30,7 @@ import { runCliProcess } from './cli-process.js';
 import { isLoopback, listeningSockets } from './listening-sockets.js';
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess, type WorkerProcess } from './worker-process.js';
 
@@ -139,7 +139,7 @@ async function workingWorker(context: SuiteContext, records: number, row: RowRec
   // Some undecodable payloads among them, so the dead-letter path logs and writes too.
   const events = sorterEvents(records, { jam: 0.05, misroute: 0.05 }, context.seed + 60).map((event, index) => (index % 50 === 7 ? undefined : event));
   await writeEvents(brokers, topics.source, events, 1);
-  const configPath = await writeRunConfig(context.dir, 'security-working', { brokers, topics, schemaFile: context.schemaFile, modelDir: context.modelDir, targets: { jam: 0.1 }, seed: context.seed });
+  const configPath = await writeScenarioConfig(context, 'security-working', { topics, targets: { jam: 0.1 }, seed: context.seed });
   // The secrets ride along on a plaintext connection (librdkafka ignores SASL and SSL key settings
   // there), so this worker connects and works while holding them.
   await withSecrets(configPath, { 'security.protocol': 'plaintext' });
@@ -169,7 +169,7 @@ async function workingWorker(context: SuiteContext, records: number, row: RowRec
 /** Part 3 while authentication fails: SASL against a plaintext listener. */
 async function failingAuthentication(context: SuiteContext, row: RowRecorder, cleanup: CleanupStack): Promise<void> {
   const topics = await createScenarioTopics(context.brokers, 'rel-secret-fail', 1, cleanup);
-  const configPath = await writeRunConfig(context.dir, 'security-failing', { brokers: context.brokers, topics, schemaFile: context.schemaFile, modelDir: context.modelDir, targets: { jam: 0.1 } });
+  const configPath = await writeScenarioConfig(context, 'security-failing', { topics, targets: { jam: 0.1 } });
   await withSecrets(configPath, { 'security.protocol': 'SASL_PLAINTEXT', 'sasl.mechanisms': 'PLAIN' });
   const worker = startWorkerProcess({ configPath, instanceId: 'secret-1', env: { [SSL_KEY_VARIABLE]: SSL_KEY_PASSWORD }, logDir: context.logDir }, cleanup);
   await waitFor(() => !worker.running() || worker.logLines().some((line) => line.level === 'warn' || line.level === 'error'), {

@@ -30,14 +30,14 @@ import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { setTimeout as delay } from 'node:timers/promises';
 
-import { metricSamples, sorterEvents, sumOf, writeRunConfig } from '../support/run-worker-scenario.js';
+import { metricSamples, sorterEvents, sumOf } from '../support/run-worker-scenario.js';
 import { waitFor } from '../support/wait-for.js';
 import { CleanupStack } from './cleanup-stack.js';
 import { producePaced } from './paced-producer.js';
 import { RowRecorder, type ScenarioRow, type ScenarioSize } from './scenario-row.js';
 import { createScenarioTopics } from './scenario-topics.js';
 import { afterWarmUp, trendOf, type Sample } from './series-trend.js';
-import type { SuiteContext } from './suite-context.js';
+import { writeScenarioConfig, type SuiteContext } from './suite-context.js';
 import { TopicProgress } from './topic-progress.js';
 import { startWorkerProcess } from './worker-process.js';
 
@@ -68,11 +68,8 @@ export async function soak(context: SuiteContext, size: ScenarioSize): Promise<S
     const { brokers } = context;
     const topics = await createScenarioTopics(brokers, 'rel-soak', PARTITIONS, cleanup);
     const progress = await TopicProgress.open(brokers, cleanup);
-    const config = await writeRunConfig(context.dir, 'soak', {
-      brokers,
+    const config = await writeScenarioConfig(context, 'soak', {
       topics,
-      schemaFile: context.schemaFile,
-      modelDir: context.modelDir,
       targets: { jam: 0.06, misroute: 0.06 },
       seed: context.seed,
     });

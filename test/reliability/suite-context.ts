@@ -4,7 +4,7 @@
  * broker of its own that a scenario may stop and start.
  */
 import { startLocalBroker, type LocalBroker } from '../../deploy/kafka/local-broker.js';
-import { fitSorterModel, makeWorkspace, writeSorterSchema } from '../support/run-worker-scenario.js';
+import { fitSorterModel, makeWorkspace, writeRunConfig, writeSorterSchema, type ConfigOptions } from '../support/run-worker-scenario.js';
 
 export interface SuiteContext {
   /** Bootstrap address of the broker the scenarios share (scenario 2 starts its own besides). */
@@ -72,4 +72,12 @@ export async function prepareSuite(options: SuiteOptions): Promise<PreparedSuite
     await workspace.remove();
     throw error;
   }
+}
+
+/** What a scenario's run config sets beyond the suite's broker, schema and model (either may be overridden). */
+export type ScenarioConfigOptions = Omit<ConfigOptions, 'brokers' | 'schemaFile' | 'modelDir'> & Partial<Pick<ConfigOptions, 'brokers' | 'schemaFile'>>;
+
+/** `writeRunConfig` in the suite's workspace, with its broker, sorter schema and model unless `options` say otherwise. */
+export function writeScenarioConfig(context: SuiteContext, name: string, options: ScenarioConfigOptions): Promise<string> {
+  return writeRunConfig(context.dir, name, { brokers: context.brokers, schemaFile: context.schemaFile, modelDir: context.modelDir, ...options });
 }

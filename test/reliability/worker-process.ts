@@ -1,7 +1,6 @@
 /**
- * `raretide run` as a child process, as test/support/spawned-worker.ts starts it (`node <deployed options> --import tsx
- * connector/cli/main.ts run`), with what the reliability scenarios need beyond it: extra environment
- * variables (secrets for the security scenario), the tensor probe preloaded (the soak reads
+ * `raretide run` as a child process, started as test/support/spawned-worker.ts starts it, with what
+ * the reliability scenarios need beyond it: extra environment variables (secrets for the security scenario), the tensor probe preloaded (the soak reads
  * tf.memory() of the worker, which /metrics does not carry), its standard output kept as well, and the
  * address of its metrics endpoint read from its log.
  */
@@ -11,12 +10,11 @@ import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
-import { WORKER_NODE_OPTIONS } from '../../connector/cli/run/node-options.js';
+import { repositoryRoot, runWorkerArguments } from '../support/spawned-worker.js';
 import { waitFor } from '../support/wait-for.js';
 import type { CleanupStack } from './cleanup-stack.js';
 import type { TensorProbeRequest, TensorProbeSample } from './tensor-probe.js';
 
-const repositoryRoot = fileURLToPath(new URL('../..', import.meta.url));
 const tensorProbe = fileURLToPath(new URL('./tensor-probe.ts', import.meta.url));
 
 export interface WorkerProcessOptions {
@@ -54,10 +52,9 @@ export interface WorkerProcess {
 
 /** Starts the worker; `cleanup` SIGKILLs it at the end if it is still running then. */
 export function startWorkerProcess(options: WorkerProcessOptions, cleanup: CleanupStack): WorkerProcess {
-  const probeFlags = options.tensorProbe === true ? ['--expose-gc'] : [];
-  const preload = options.tensorProbe === true ? ['--import', tensorProbe] : [];
-  // The Node options the worker is deployed with, so the suite judges what runs in production.
-  const child = spawn(process.execPath, [...WORKER_NODE_OPTIONS, ...probeFlags, '--import', 'tsx', ...preload, 'connector/cli/main.ts', 'run', '--config', options.configPath, '--instance-id', options.instanceId], {
+  // Started as spawnWorker starts it (the deployed Node options included), so the suite judges what runs in production.
+  const probe = options.tensorProbe === true ? { nodeFlags: ['--expose-gc'], preload: [tensorProbe] } : {};
+  const child = spawn(process.execPath, runWorkerArguments(options.configPath, options.instanceId, probe), {
     cwd: repositoryRoot,
     env: { ...process.env, ...options.env },
     stdio: options.tensorProbe === true ? ['ignore', 'pipe', 'pipe', 'ipc'] : ['ignore', 'pipe', 'pipe'],

@@ -11,7 +11,8 @@ import { WORKER_NODE_OPTIONS } from '../../connector/cli/run/node-options.js';
 import { connectConsumer, disconnect } from './kafka-clients.js';
 import { uniqueName } from './topics.js';
 
-const repositoryRoot = fileURLToPath(new URL('../..', import.meta.url));
+/** Where spawned workers run from (their arguments name repository paths). */
+export const repositoryRoot = fileURLToPath(new URL('../..', import.meta.url));
 
 export interface SpawnedWorker {
   readonly child: ChildProcess;
@@ -23,8 +24,17 @@ export interface SpawnedWorker {
 /** Spawned workers not yet known to have exited; `killLeftovers` ends them (for `afterAll`). */
 const spawned: ChildProcess[] = [];
 
+/**
+ * Node's arguments for `raretide run` from source, run from the repository root: the deployed Node
+ * options, then `nodeFlags`, tsx, the `preload` modules (imported after tsx, so they may be TypeScript).
+ */
+export function runWorkerArguments(configPath: string, instanceId: string, extra: { nodeFlags?: readonly string[]; preload?: readonly string[] } = {}): string[] {
+  const preload = (extra.preload ?? []).flatMap((module) => ['--import', module]);
+  return [...WORKER_NODE_OPTIONS, ...(extra.nodeFlags ?? []), '--import', 'tsx', ...preload, 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId];
+}
+
 export function spawnWorker(configPath: string, instanceId: string): SpawnedWorker {
-  const child = spawn(process.execPath, [...WORKER_NODE_OPTIONS, '--import', 'tsx', 'connector/cli/main.ts', 'run', '--config', configPath, '--instance-id', instanceId], {
+  const child = spawn(process.execPath, runWorkerArguments(configPath, instanceId), {
     cwd: repositoryRoot,
     stdio: ['ignore', 'ignore', 'pipe'],
   });
